@@ -1,0 +1,21 @@
+# Build: docker build -t ebb .
+# Run:   docker run -p 8080:8080 -v ebb-data:/data ebb serve --demo
+FROM golang:1.26-bookworm AS build
+WORKDIR /src
+COPY go.mod go.sum ./
+RUN go mod download
+COPY . .
+RUN CGO_ENABLED=0 go build -trimpath -ldflags="-s -w" -o /out/ebb ./cmd/ebb && mkdir -p /out/data
+
+FROM gcr.io/distroless/static-debian12:nonroot
+COPY --from=build /out/ebb /usr/local/bin/ebb
+COPY --from=build --chown=65532:65532 /out/data /data
+# The database lives on a volume; the image runs as the distroless nonroot user.
+VOLUME /data
+ENV EBB_DB=/data/ebb.db \
+    EBB_ADDR=0.0.0.0:8080
+EXPOSE 8080
+USER nonroot:nonroot
+HEALTHCHECK --interval=30s --timeout=3s --start-period=20s CMD ["/usr/local/bin/ebb", "health"]
+ENTRYPOINT ["/usr/local/bin/ebb"]
+CMD ["serve"]

@@ -1,0 +1,236 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"net"
+	"net/http"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"ebb/internal/store"
+)
+
+type result struct {
+	err            error
+	stdout, stderr string
+}
+
+func runCLI(t *testing.T, envv map[string]string, args ...string) result {
+	t.Helper()
+	var out, errb bytes.Buffer
+	err := run(context.Background(), args, func(k string) string { return envv[k] }, &out, &errb)
+	return result{err, out.String(), errb.String()}
+}
+
+func writeFile(t *testing.T, dir, name, body string) string {
+	t.Helper()
+	p := filepath.Join(dir, name)
+	if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+func counts(t *testing.T, db string) [4]int {
+	t.Helper()
+	st, err := store.Open(context.Background(), db, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	d, v, c, o, err := st.Counts(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	return [4]int{d, v, c, o}
+}
+
+func TestImportCommand(t *testing.T) {
+	dir := t.TempDir()
+	db := filepath.Join(dir, "ebb.db")
+	good := writeFile(t, dir, "orders.csv", "customer_id,order_date,amount,order_id\nA,2024-01-01,10,R1\nB,2024-01-02,5,R2\nA,2024-02-01,7.5,R3\n")
+	more := writeFile(t, dir, "more.csv", "customer_id,order_date,amount,order_id\nA,2024-01-01,10,R1\nC,2024-03-01,1,R4\n")
+	broken := writeFile(t, dir, "broken.csv", "customer_id,order_date,amount,order_id\nD,2024-01-01,10,R9\nE,14/03/2024,5,R10\nF,2024-01-03,ten,R11\n")
+
+	r := runCLI(t, nil, "import", "--db", db, "--dataset", "shop", good)
+	if r.err != nil {
+		t.Fatalf("import: %v\n%s", r.err, r.stderr)
+	}
+	if want := `imported orders.csv as version 1 of dataset "shop": 3 orders from 2024-01-01 to 2024-02-01, 2 new customers`; strings.TrimSpace(r.stdout) != want {
+		t.Errorf("stdout = %q, want %q", r.stdout, want)
+	}
+	if got := counts(t, db); got != [4]int{1, 1, 2, 3} {
+		t.Errorf("counts = %v, want [1 1 2 3]", got)
+	}
+
+	r = runCLI(t, nil, "import", "--db", db, "--dataset", "shop", more)
+	if r.err == nil || !strings.Contains(r.err.Error(), "exists already") {
+		t.Errorf("import into an existing name without --append: err = %v", r.err)
+	}
+
+	// The database comes from the environment this time.
+	r = runCLI(t, map[string]string{"EBB_DB": db}, "import", "--dataset", "shop", "--append", more)
+	if r.err != nil {
+		t.Fatalf("append: %v\n%s", r.err, r.stderr)
+	}
+	if !strings.Contains(r.stdout, "1 orders from 2024-03-01 to 2024-03-01, 1 new customers; 1 rows already stored were left out (first on line 2)") {
+		t.Errorf("append stdout = %q", r.stdout)
+	}
+	if got := counts(t, db); got != [4]int{1, 2, 3, 4} {
+		t.Errorf("counts after append = %v, want [1 2 3 4]", got)
+	}
+
+	before := counts(t, db)
+	r = runCLI(t, nil, "import", "--db", db, "--dataset", "other", broken)
+	if r.err == nil {
+		t.Fatal("a broken file was accepted")
+	}
+	wantLines := []string{
+		`broken.csv:3:2: column order_date: "14/03/2024" is not an ISO 8601 date (YYYY-MM-DD); it looks like a day-first or month-first date, so choose one of those explicitly`,
+		`broken.csv:4:3: column amount: "ten" is not a number (want e.g. 12.50, without a currency sign)`,
+	}
+	if got := strings.Split(strings.TrimSpace(r.stderr), "\n"); strings.Join(got, "\n") != strings.Join(wantLines, "\n") {
+		t.Errorf("stderr =\n%s\nwant\n%s", r.stderr, strings.Join(wantLines, "\n"))
+	}
+	if want := "broken.csv was not imported: 2 problems; the database is unchanged"; r.err.Error() != want {
+		t.Errorf("err = %q, want %q", r.err, want)
+	}
+	if after := counts(t, db); after != before {
+		t.Errorf("a rejected import changed counts from %v to %v", before, after)
+	}
+
+	// The same file, day-first and skipping bad rows, with a report.
+	report := filepath.Join(dir, "report.csv")
+	r = runCLI(t, nil, "import", "--db", db, "--dataset", "other", "--day-first", "--on-error", "skip", "--report", report, broken)
+	if r.err != nil {
+		t.Fatalf("skip: %v", r.err)
+	}
+	if !strings.Contains(r.stdout, "2 orders from 2024-01-01 to 2024-03-14") || !strings.Contains(r.stdout, "1 bad rows skipped") {
+		t.Errorf("skip stdout = %q", r.stdout)
+	}
+	rep, _ := os.ReadFile(report)
+	if want := "file,line,column_number,column,problem\nbroken.csv,4,3,amount,\"\"\"ten\"\" is not a number (want e.g. 12.50, without a currency sign)\"\n"; string(rep) != want {
+		t.Errorf("report =\n%s\nwant\n%s", rep, want)
+	}
+}
+
+func TestFlagErrors(t *testing.T) {
+	tests := []struct {
+		name string
+		env  map[string]string
+		args []string
+		want string
+	}{
+		{"unknown command", nil, []string{"fly"}, `unknown command "fly"`},
+		{"unknown flag", nil, []string{"import", "--nope"}, "flag provided but not defined: -nope"},
+		{"no file", nil, []string{"import", "--dataset", "x"}, "give exactly one order file"},
+		{"no dataset", nil, []string{"import", "a.csv"}, "--dataset NAME is required"},
+		{"bad policy", nil, []string{"import", "--dataset", "x", "--on-error", "maybe", "a.csv"}, `unknown error policy "maybe"`},
+		{"bad env", map[string]string{"EBB_APPEND": "perhaps"}, []string{"import", "--dataset", "x", "a.csv"}, "environment variable EBB_APPEND"},
+		{"both date orders", nil, []string{"import", "--dataset", "x", "--day-first", "--month-first", "a.csv"}, "not both"},
+		{"bad map", nil, []string{"import", "--dataset", "x", "--map", "shoe=size", "a.csv"}, `unknown field "shoe"`},
+		{"demo without out", nil, []string{"demo"}, "--out DIR is required"},
+		{"missing file", nil, []string{"import", "--dataset", "x", "/no/such/file.csv"}, "no such file"},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			r := runCLI(t, tt.env, tt.args...)
+			if r.err == nil || !strings.Contains(r.err.Error(), tt.want) {
+				t.Errorf("err = %v, want it to contain %q", r.err, tt.want)
+			}
+		})
+	}
+}
+
+func TestHelp(t *testing.T) {
+	r := runCLI(t, nil, "help")
+	if r.err != nil || !strings.Contains(r.stdout, "serve") || !strings.Contains(r.stdout, "import") || !strings.Contains(r.stdout, "EBB_DB") {
+		t.Errorf("help: %v\n%s", r.err, r.stdout)
+	}
+	for _, args := range [][]string{{"import", "--help"}, {"help", "import"}} {
+		r := runCLI(t, nil, args...)
+		for _, want := range []string{"--db FILE", "[EBB_DB]", "--on-error POLICY", "(default reject)", "--day-first"} {
+			if r.err != nil || !strings.Contains(r.stdout, want) {
+				t.Errorf("%v: lacks %q: %v\n%s", args, want, r.err, r.stdout)
+			}
+		}
+	}
+	r = runCLI(t, nil, "serve", "--help")
+	if !strings.Contains(r.stdout, "--addr HOST:PORT") || !strings.Contains(r.stdout, "(default 127.0.0.1:8080)") {
+		t.Errorf("serve --help:\n%s", r.stdout)
+	}
+}
+
+func TestDemoCommand(t *testing.T) {
+	dir := t.TempDir()
+	r := runCLI(t, nil, "demo", "--out", dir, "--seed", "7", "--size", "300")
+	if r.err != nil {
+		t.Fatal(r.err)
+	}
+	orders, err := os.ReadFile(filepath.Join(dir, "orders.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.HasPrefix(string(orders), "customer_id,order_date,amount,order_id\n") {
+		t.Errorf("orders.csv starts %q", string(orders[:40]))
+	}
+	customers, _ := os.ReadFile(filepath.Join(dir, "customers.csv"))
+	if !strings.HasPrefix(string(customers), "customer_id,email,signup_date,contactable") {
+		t.Errorf("customers.csv starts %q", string(customers[:40]))
+	}
+	// The files it writes import cleanly.
+	db := filepath.Join(dir, "d.db")
+	r = runCLI(t, nil, "import", "--db", db, "--dataset", "d", "--customers", filepath.Join(dir, "customers.csv"), filepath.Join(dir, "orders.csv"))
+	if r.err != nil || !strings.Contains(r.stdout, "300 new customers") {
+		t.Errorf("import of demo files: %v %s", r.err, r.stdout)
+	}
+}
+
+// TestServeDemo starts the real server with --demo twice on the same
+// database: the first start loads the demo, the second changes nothing.
+func TestServeDemo(t *testing.T) {
+	db := filepath.Join(t.TempDir(), "serve.db")
+	for i, want := range []string{"loaded the demo dataset", "already loaded"} {
+		ln, err := net.Listen("tcp", "127.0.0.1:0")
+		if err != nil {
+			t.Fatal(err)
+		}
+		addr := ln.Addr().String()
+		ln.Close()
+		ctx, cancel := context.WithCancel(context.Background())
+		var out, errb bytes.Buffer
+		done := make(chan error, 1)
+		go func() {
+			done <- run(ctx, []string{"serve", "--demo", "--addr", addr, "--db", db}, func(string) string { return "" }, &out, &errb)
+		}()
+		up := false
+		for deadline := time.Now().Add(60 * time.Second); time.Now().Before(deadline); time.Sleep(50 * time.Millisecond) {
+			if res, err := http.Get("http://" + addr + "/healthz"); err == nil {
+				res.Body.Close()
+				up = res.StatusCode == 200
+				break
+			}
+		}
+		health := runCLI(t, nil, "health", "--addr", addr)
+		cancel()
+		if health.err != nil || health.stdout != "ok\n" {
+			t.Errorf("start %d: ebb health = %v %q", i+1, health.err, health.stdout)
+		}
+		if err := <-done; err != nil {
+			t.Fatalf("start %d: serve returned %v\n%s", i+1, err, errb.String())
+		}
+		if !up {
+			t.Fatalf("start %d: /healthz never answered 200\n%s", i+1, errb.String())
+		}
+		if !strings.Contains(out.String(), want) || !strings.Contains(out.String(), "ebb is serving http://"+addr) {
+			t.Errorf("start %d: stdout = %q, want %q", i+1, out.String(), want)
+		}
+	}
+	if got := counts(t, db); got[0] != 1 || got[1] != 1 {
+		t.Errorf("after two starts: %d datasets, %d versions; want 1 and 1", got[0], got[1])
+	}
+}

@@ -1,0 +1,527 @@
+package store
+
+import (
+	"context"
+	"crypto/rand"
+	"database/sql"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"strings"
+	"time"
+
+	"ebb/internal/civil"
+	"ebb/internal/ingest"
+	"ebb/internal/problem"
+)
+
+// Dataset is a named order history with its latest ready version.
+type Dataset struct {
+	ID        int64
+	Name      string
+	TimeZone  string
+	Salt      []byte
+	CreatedAt time.Time
+	// DataThroughSet is the analyst's data_through, when they chose one.
+	DataThroughSet *civil.Date
+
+	Version   int64 // id of the latest ready version
+	Seq       int   // its number within the dataset: 1, 2, …
+	Orders    int
+	Customers int
+	FirstDay  civil.Date
+	LastDay   civil.Date
+}
+
+// DataThrough is the last day the orders are complete for: the analyst's
+// choice, or else the latest order day.
+func (d Dataset) DataThrough() civil.Date {
+	if d.DataThroughSet != nil {
+		return *d.DataThroughSet
+	}
+	return d.LastDay
+}
+
+// Version is one import or append into a dataset.
+type Version struct {
+	ID             int64
+	DatasetID      int64
+	Seq            int
+	Kind           string // "import" or "append"
+	Source         string
+	RowsRead       int
+	OrdersAdded    int
+	CustomersAdded int
+	RowsSkipped    int
+	RepeatsSkipped int
+	CustomersFile  string
+	CustomersRead  int
+	OrdersTotal    int
+	CustomersTotal int
+	FirstDay       civil.Date
+	LastDay        civil.Date
+	CreatedAt      time.Time
+	FinishedAt     time.Time
+}
+
+const datasetColumns = `d.id, d.name, d.timezone, d.data_through, d.salt, d.created_at,
+	v.id, v.seq, v.orders_total, v.customers_total, v.first_day, v.last_day`
+
+// Only datasets with a ready version are visible; a dataset whose first
+// import is still loading does not exist yet for readers.
+const datasetFrom = ` FROM datasets d JOIN versions v ON v.id = (
+	SELECT id FROM versions WHERE dataset_id = d.id AND state = 'ready' ORDER BY seq DESC LIMIT 1)`
+
+func scanDataset(sc interface{ Scan(...any) error }) (Dataset, error) {
+	var d Dataset
+	var through sql.NullString
+	var created string
+	var first, last sql.NullInt64
+	if err := sc.Scan(&d.ID, &d.Name, &d.TimeZone, &through, &d.Salt, &created,
+		&d.Version, &d.Seq, &d.Orders, &d.Customers, &first, &last); err != nil {
+		return d, err
+	}
+	d.CreatedAt, _ = time.Parse(time.RFC3339, created)
+	if through.Valid {
+		t, err := civil.Parse(through.String)
+		if err != nil {
+			return d, fmt.Errorf("dataset %d: stored data_through: %w", d.ID, err)
+		}
+		d.DataThroughSet = &t
+	}
+	d.FirstDay, d.LastDay = civil.Date(first.Int64), civil.Date(last.Int64)
+	return d, nil
+}
+
+// Datasets lists the visible datasets by name.
+func (s *Store) Datasets(ctx context.Context) ([]Dataset, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT `+datasetColumns+datasetFrom+` ORDER BY d.name`)
+	if err != nil {
+		return nil, fmt.Errorf("list datasets: %w", err)
+	}
+	defer rows.Close()
+	var out []Dataset
+	for rows.Next() {
+		d, err := scanDataset(rows)
+		if err != nil {
+			return nil, fmt.Errorf("list datasets: %w", err)
+		}
+		out = append(out, d)
+	}
+	return out, rows.Err()
+}
+
+// DatasetByName returns the visible dataset called name.
+func (s *Store) DatasetByName(ctx context.Context, name string) (Dataset, error) {
+	return s.datasetWhere(ctx, `d.name = ?`, name, fmt.Sprintf("%q", name))
+}
+
+// DatasetByID returns the visible dataset with the given id.
+func (s *Store) DatasetByID(ctx context.Context, id int64) (Dataset, error) {
+	return s.datasetWhere(ctx, `d.id = ?`, id, fmt.Sprint(id))
+}
+
+func (s *Store) datasetWhere(ctx context.Context, cond string, arg any, label string) (Dataset, error) {
+	d, err := scanDataset(s.r.QueryRowContext(ctx, `SELECT `+datasetColumns+datasetFrom+` WHERE `+cond, arg))
+	if errors.Is(err, sql.ErrNoRows) {
+		return d, problem.New(problem.NotFound, "there is no dataset %s", label)
+	}
+	if err != nil {
+		return d, fmt.Errorf("dataset %s: %w", label, err)
+	}
+	return d, nil
+}
+
+// SetDataThrough records the analyst's data_through for a dataset; nil goes
+// back to the latest order day.
+func (s *Store) SetDataThrough(ctx context.Context, datasetID int64, day *civil.Date) error {
+	var v any
+	if day != nil {
+		v = day.String()
+	}
+	res, err := s.w.ExecContext(ctx, `UPDATE datasets SET data_through = ? WHERE id = ?`, v, datasetID)
+	if err != nil {
+		return fmt.Errorf("set data_through of dataset %d: %w", datasetID, err)
+	}
+	if n, _ := res.RowsAffected(); n == 0 {
+		return problem.New(problem.NotFound, "there is no dataset %d", datasetID)
+	}
+	return nil
+}
+
+// Versions lists the ready versions of a dataset, newest first.
+func (s *Store) Versions(ctx context.Context, datasetID int64) ([]Version, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT id, dataset_id, seq, kind, source, rows_read, orders_added,
+		customers_added, rows_skipped, repeats_skipped, COALESCE(customers_file, ''), customers_read,
+		orders_total, customers_total, COALESCE(first_day, 0), COALESCE(last_day, 0), created_at, COALESCE(finished_at, '')
+		FROM versions WHERE dataset_id = ? AND state = 'ready' ORDER BY seq DESC`, datasetID)
+	if err != nil {
+		return nil, fmt.Errorf("list versions of dataset %d: %w", datasetID, err)
+	}
+	defer rows.Close()
+	var out []Version
+	for rows.Next() {
+		var v Version
+		var created, finished string
+		if err := rows.Scan(&v.ID, &v.DatasetID, &v.Seq, &v.Kind, &v.Source, &v.RowsRead, &v.OrdersAdded,
+			&v.CustomersAdded, &v.RowsSkipped, &v.RepeatsSkipped, &v.CustomersFile, &v.CustomersRead,
+			&v.OrdersTotal, &v.CustomersTotal, &v.FirstDay, &v.LastDay, &created, &finished); err != nil {
+			return nil, fmt.Errorf("list versions of dataset %d: %w", datasetID, err)
+		}
+		v.CreatedAt, _ = time.Parse(time.RFC3339, created)
+		v.FinishedAt, _ = time.Parse(time.RFC3339, finished)
+		out = append(out, v)
+	}
+	return out, rows.Err()
+}
+
+// Import is a version being written.
+type Import struct {
+	DatasetID int64
+	VersionID int64
+	Seq       int
+	TimeZone  string
+	New       bool // the dataset was created by this import
+}
+
+// BeginImport starts a new version of the named dataset in the loading
+// state. Without append the dataset must not exist yet and is created with
+// the time zone tz; with append it must exist (tz is then ignored). Only one
+// import per dataset may load at a time.
+func (s *Store) BeginImport(ctx context.Context, name, tz string, appendTo bool, source string) (Import, error) {
+	name = strings.TrimSpace(name)
+	if name == "" || len(name) > 100 {
+		return Import{}, problem.New(problem.Invalid, "a dataset name must have 1 to 100 characters")
+	}
+	var imp Import
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		var ready int
+		err := tx.QueryRowContext(ctx, `SELECT d.id, d.timezone,
+			(SELECT count(*) FROM versions WHERE dataset_id = d.id AND state = 'ready')
+			FROM datasets d WHERE d.name = ?`, name).Scan(&imp.DatasetID, &imp.TimeZone, &ready)
+		switch {
+		case errors.Is(err, sql.ErrNoRows):
+			if appendTo {
+				return problem.New(problem.NotFound, "there is no dataset called %q to append to", name)
+			}
+			salt := make([]byte, 16)
+			rand.Read(salt)
+			res, err := tx.ExecContext(ctx, `INSERT INTO datasets (name, timezone, salt, created_at) VALUES (?, ?, ?, ?)`,
+				name, tz, salt, s.stamp())
+			if err != nil {
+				return err
+			}
+			imp.DatasetID, _ = res.LastInsertId()
+			imp.TimeZone = tz
+			imp.New = true
+		case err != nil:
+			return err
+		case ready == 0:
+			return problem.New(problem.Conflict, "dataset %q is still being imported; wait for that import to finish", name)
+		case !appendTo:
+			return problem.New(problem.Conflict, "a dataset called %q exists already; append to it, or choose another name", name)
+		}
+		var loading int
+		if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM versions WHERE dataset_id = ? AND state = 'loading'`,
+			imp.DatasetID).Scan(&loading); err != nil {
+			return err
+		}
+		if loading > 0 {
+			return problem.New(problem.Conflict, "another import into %q is running; wait for it to finish", name)
+		}
+		if err := tx.QueryRowContext(ctx, `SELECT COALESCE(max(seq), 0) + 1 FROM versions WHERE dataset_id = ?`,
+			imp.DatasetID).Scan(&imp.Seq); err != nil {
+			return err
+		}
+		kind := "import"
+		if appendTo {
+			kind = "append"
+		}
+		res, err := tx.ExecContext(ctx, `INSERT INTO versions (dataset_id, seq, state, kind, source, created_at)
+			VALUES (?, ?, 'loading', ?, ?, ?)`, imp.DatasetID, imp.Seq, kind, source, s.stamp())
+		if err != nil {
+			return err
+		}
+		imp.VersionID, _ = res.LastInsertId()
+		return nil
+	})
+	if err != nil {
+		if problem.As(err) != nil {
+			return Import{}, err
+		}
+		return Import{}, fmt.Errorf("begin import into %q: %w", name, err)
+	}
+	return imp, nil
+}
+
+// CustomerKeys returns the dataset's customer keys in id order (keys[i] has
+// id i).
+func (s *Store) CustomerKeys(ctx context.Context, datasetID int64) ([]string, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT id, key FROM customers WHERE dataset_id = ? ORDER BY id`, datasetID)
+	if err != nil {
+		return nil, fmt.Errorf("customer keys of dataset %d: %w", datasetID, err)
+	}
+	defer rows.Close()
+	var keys []string
+	for rows.Next() {
+		var id int
+		var k string
+		if err := rows.Scan(&id, &k); err != nil {
+			return nil, fmt.Errorf("customer keys of dataset %d: %w", datasetID, err)
+		}
+		if id != len(keys) {
+			return nil, fmt.Errorf("customer keys of dataset %d: ids are not dense at %d", datasetID, id)
+		}
+		keys = append(keys, k)
+	}
+	return keys, rows.Err()
+}
+
+// EachOrder calls fn for every order of the dataset's ready versions, in no
+// particular order.
+func (s *Store) EachOrder(ctx context.Context, datasetID int64, fn func(customer int32, day civil.Date, amount float64, hasAmount bool, ref string)) error {
+	rows, err := s.r.QueryContext(ctx, `SELECT o.customer_id, o.day, o.amount, COALESCE(o.ref, '')
+		FROM orders o WHERE o.version_id IN (SELECT id FROM versions WHERE dataset_id = ? AND state = 'ready')`, datasetID)
+	if err != nil {
+		return fmt.Errorf("orders of dataset %d: %w", datasetID, err)
+	}
+	defer rows.Close()
+	var cust, day int64
+	var amount sql.NullFloat64
+	var ref string
+	for rows.Next() {
+		if err := rows.Scan(&cust, &day, &amount, &ref); err != nil {
+			return fmt.Errorf("orders of dataset %d: %w", datasetID, err)
+		}
+		fn(int32(cust), civil.Date(day), amount.Float64, amount.Valid, ref)
+	}
+	return rows.Err()
+}
+
+// WriteCustomers stores the rows of a customers file in one transaction:
+// customers new to the dataset are inserted as part of the import's
+// version, known ones get their details replaced.
+func (s *Store) WriteCustomers(ctx context.Context, imp Import, firstNew int32, attrNames []string, cs []ingest.Customer) error {
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		ins, err := tx.PrepareContext(ctx, `INSERT INTO customers (dataset_id, id, key, version_id, email, signup_date, contactable, attributes)
+			VALUES (?, ?, ?, ?, ?, ?, ?, ?)`)
+		if err != nil {
+			return err
+		}
+		defer ins.Close()
+		upd, err := tx.PrepareContext(ctx, `UPDATE customers SET email = ?, signup_date = ?, contactable = ?, attributes = ?
+			WHERE dataset_id = ? AND id = ?`)
+		if err != nil {
+			return err
+		}
+		defer upd.Close()
+		for _, c := range cs {
+			var email, signup, attrs any
+			if c.Email != "" {
+				email = c.Email
+			}
+			if c.HasSignup {
+				signup = c.Signup.String()
+			}
+			if len(attrNames) > 0 {
+				m := make(map[string]string, len(attrNames))
+				for i, n := range attrNames {
+					m[n] = c.Attributes[i]
+				}
+				b, _ := json.Marshal(m)
+				attrs = string(b)
+			}
+			if c.ID >= firstNew {
+				_, err = ins.ExecContext(ctx, imp.DatasetID, c.ID, c.Key, imp.VersionID, email, signup, c.Contactable, attrs)
+			} else {
+				_, err = upd.ExecContext(ctx, email, signup, c.Contactable, attrs, imp.DatasetID, c.ID)
+			}
+			if err != nil {
+				return fmt.Errorf("customer %q: %w", c.Key, err)
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("write customers of dataset %d: %w", imp.DatasetID, err)
+	}
+	return nil
+}
+
+// rowsPerInsert is the number of orders in one multi-row INSERT; SQLite
+// parses one statement for many rows (PLATFORM.md: about twice the rate of
+// single-row inserts).
+const rowsPerInsert = 200
+
+// WriteOrders stores one batch — its new customers and its orders — in one
+// transaction of the loading version.
+func (s *Store) WriteOrders(ctx context.Context, imp Import, b ingest.Batch) error {
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		if len(b.NewKeys) > 0 {
+			ins, err := tx.PrepareContext(ctx, `INSERT INTO customers (dataset_id, id, key, version_id) VALUES (?, ?, ?, ?)`)
+			if err != nil {
+				return err
+			}
+			defer ins.Close()
+			for i, k := range b.NewKeys {
+				if _, err := ins.ExecContext(ctx, imp.DatasetID, b.FirstNewID+int32(i), k, imp.VersionID); err != nil {
+					return fmt.Errorf("customer %q: %w", k, err)
+				}
+			}
+		}
+		full, err := tx.PrepareContext(ctx, orderInsert(rowsPerInsert))
+		if err != nil {
+			return err
+		}
+		defer full.Close()
+		args := make([]any, 0, 5*rowsPerInsert)
+		orders := b.Orders
+		for len(orders) > 0 {
+			n := min(len(orders), rowsPerInsert)
+			args = args[:0]
+			for _, o := range orders[:n] {
+				var amount, ref any
+				if o.HasAmount {
+					amount = o.Amount
+				}
+				if o.Ref != "" {
+					ref = o.Ref
+				}
+				args = append(args, imp.VersionID, int64(o.Customer), int64(o.Day), amount, ref)
+			}
+			if n == rowsPerInsert {
+				_, err = full.ExecContext(ctx, args...)
+			} else {
+				_, err = tx.ExecContext(ctx, orderInsert(n), args...)
+			}
+			if err != nil {
+				return err
+			}
+			orders = orders[n:]
+		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("write orders of dataset %d: %w", imp.DatasetID, err)
+	}
+	return nil
+}
+
+func orderInsert(n int) string {
+	var b strings.Builder
+	b.WriteString(`INSERT INTO orders (version_id, customer_id, day, amount, ref) VALUES `)
+	for i := 0; i < n; i++ {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		b.WriteString("(?,?,?,?,?)")
+	}
+	return b.String()
+}
+
+// ImportStats are the figures recorded when a version becomes ready.
+type ImportStats struct {
+	RowsRead       int
+	OrdersAdded    int
+	CustomersAdded int
+	RowsSkipped    int
+	RepeatsSkipped int
+	CustomersFile  string
+	CustomersRead  int
+	FirstDay       civil.Date // of the orders added; ignored when none were
+	LastDay        civil.Date
+}
+
+// FinishImport makes the loading version ready, in one small transaction:
+// from then on every reader sees all of it, and before then none of it.
+func (s *Store) FinishImport(ctx context.Context, imp Import, st ImportStats) error {
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		var ordersTotal, customersTotal int
+		var first, last sql.NullInt64
+		err := tx.QueryRowContext(ctx, `SELECT orders_total, first_day, last_day FROM versions
+			WHERE dataset_id = ? AND state = 'ready' ORDER BY seq DESC LIMIT 1`, imp.DatasetID).Scan(&ordersTotal, &first, &last)
+		if err != nil && !errors.Is(err, sql.ErrNoRows) {
+			return err
+		}
+		ordersTotal += st.OrdersAdded
+		if st.OrdersAdded > 0 {
+			if !first.Valid || int64(st.FirstDay) < first.Int64 {
+				first = sql.NullInt64{Int64: int64(st.FirstDay), Valid: true}
+			}
+			if !last.Valid || int64(st.LastDay) > last.Int64 {
+				last = sql.NullInt64{Int64: int64(st.LastDay), Valid: true}
+			}
+		}
+		if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM customers WHERE dataset_id = ?`, imp.DatasetID).Scan(&customersTotal); err != nil {
+			return err
+		}
+		var cfile any
+		if st.CustomersFile != "" {
+			cfile = st.CustomersFile
+		}
+		res, err := tx.ExecContext(ctx, `UPDATE versions SET state = 'ready', rows_read = ?, orders_added = ?,
+			customers_added = ?, rows_skipped = ?, repeats_skipped = ?, customers_file = ?, customers_read = ?,
+			orders_total = ?, customers_total = ?, first_day = ?, last_day = ?, finished_at = ?
+			WHERE id = ? AND state = 'loading'`,
+			st.RowsRead, st.OrdersAdded, st.CustomersAdded, st.RowsSkipped, st.RepeatsSkipped, cfile, st.CustomersRead,
+			ordersTotal, customersTotal, first, last, s.stamp(), imp.VersionID)
+		if err != nil {
+			return err
+		}
+		if n, _ := res.RowsAffected(); n != 1 {
+			return fmt.Errorf("version %d is no longer loading", imp.VersionID)
+		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("finish import of version %d: %w", imp.VersionID, err)
+	}
+	return nil
+}
+
+// AbortImport deletes a loading version with everything it wrote, and the
+// dataset too when the import had created it.
+func (s *Store) AbortImport(ctx context.Context, imp Import) error {
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		if _, err := tx.ExecContext(ctx, `DELETE FROM versions WHERE id = ? AND state = 'loading'`, imp.VersionID); err != nil {
+			return err
+		}
+		return deleteEmptyDatasets(ctx, tx)
+	})
+	if err != nil {
+		return fmt.Errorf("abort import of version %d: %w", imp.VersionID, err)
+	}
+	return nil
+}
+
+// PurgeLoading deletes every version left loading (by a crash or a kill)
+// and datasets left with no version; it runs at start-up, before any import
+// can begin. It returns the number of versions removed.
+func (s *Store) PurgeLoading(ctx context.Context) (int, error) {
+	var n int64
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		res, err := tx.ExecContext(ctx, `DELETE FROM versions WHERE state = 'loading'`)
+		if err != nil {
+			return err
+		}
+		n, _ = res.RowsAffected()
+		return deleteEmptyDatasets(ctx, tx)
+	})
+	if err != nil {
+		return 0, fmt.Errorf("purge loading versions: %w", err)
+	}
+	return int(n), nil
+}
+
+func deleteEmptyDatasets(ctx context.Context, tx *sql.Tx) error {
+	_, err := tx.ExecContext(ctx, `DELETE FROM datasets WHERE NOT EXISTS (SELECT 1 FROM versions WHERE dataset_id = datasets.id)`)
+	return err
+}
+
+// Counts returns the number of datasets, versions (any state), customers and
+// orders stored: a cheap whole-database fingerprint for tests and checks.
+func (s *Store) Counts(ctx context.Context) (datasets, versions, customers, orders int, err error) {
+	err = s.r.QueryRowContext(ctx, `SELECT (SELECT count(*) FROM datasets), (SELECT count(*) FROM versions),
+		(SELECT count(*) FROM customers), (SELECT count(*) FROM orders)`).Scan(&datasets, &versions, &customers, &orders)
+	return
+}

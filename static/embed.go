@@ -1,0 +1,10 @@
+// Package static embeds ebb's stylesheet, scripts and vendored front-end
+// files, served under /static/.
+package static
+
+import "embed"
+
+// FS holds the files of this folder.
+//
+//go:embed *.css
+var FS embed.FS
