@@ -132,37 +132,26 @@ func runImport(ctx context.Context, st *store.Store, imp store.Import, req Impor
 		if err := st.WriteCustomers(ctx, imp, firstNew, csum.Attributes, cs); err != nil {
 			return res, err
 		}
+		for _, c := range cs {
+			if c.ID < firstNew {
+				stats.Updates = append(stats.Updates, c)
+			}
+		}
+		stats.AttributeNames = csum.Attributes
 		stats.CustomersFile = req.Customers.Name
 		stats.CustomersRead = csum.Accepted
 	}
 
 	// Parsing and writing overlap: the reader hands batches to a writer
-	// goroutine through a short queue, so the two cores share the work.
+	// goroutine through a short queue, so the two cores share the work. The
+	// first write error stops the reader at its next batch.
 	counter := &countingReader{r: req.Orders.R}
-	batches := make(chan ingest.Batch, 2)
-	writeErr := make(chan error, 1)
-	wctx, cancelWrite := context.WithCancel(ctx)
-	defer cancelWrite()
-	go func() {
-		var err error
-		for b := range batches {
-			if err == nil {
-				err = st.WriteOrders(wctx, imp, b)
-			}
-		}
-		writeErr <- err
-	}()
+	w := startWriter(ctx, func(ctx context.Context, b ingest.Batch) error { return st.WriteOrders(ctx, imp, b) })
 	sum, readErr := ingest.ReadOrders(ctx, counter, ingest.OrderOptions{
 		File: req.Orders.Name, Columns: req.Columns, Dates: req.Dates, Location: loc, Today: today,
-		Policy: req.Policy, Keys: keys, Refs: refs, Existing: existing, OnProblem: req.OnProblem,
+		Policy: req.Policy, Keys: keys, Refs: refs, Existing: existing, OnProblem: req.OnProblem, Size: req.Orders.Size,
 	}, func(b ingest.Batch) error {
-		select {
-		case batches <- b:
-		case err := <-writeErr:
-			writeErr <- err // keep it for the final receive
-			if err == nil {
-				err = errors.New("order writer stopped")
-			}
+		if err := w.send(b); err != nil {
 			return err
 		}
 		if req.Orders.Size > 0 {
@@ -170,11 +159,7 @@ func runImport(ctx context.Context, st *store.Store, imp store.Import, req Impor
 		}
 		return nil
 	})
-	if readErr != nil {
-		cancelWrite()
-	}
-	close(batches)
-	werr := <-writeErr
+	werr := w.close(readErr != nil)
 	res.Orders = sum
 	if readErr != nil {
 		return res, readErr
@@ -199,6 +184,54 @@ func runImport(ctx context.Context, st *store.Store, imp store.Import, req Impor
 	}
 	progress(100, "done")
 	return res, nil
+}
+
+// writer runs write on batches in its own goroutine.
+type writer struct {
+	batches chan ingest.Batch
+	failed  chan error // receives the first write error, once
+	done    chan struct{}
+	cancel  context.CancelFunc
+	err     error
+}
+
+func startWriter(ctx context.Context, write func(context.Context, ingest.Batch) error) *writer {
+	ctx, cancel := context.WithCancel(ctx)
+	w := &writer{batches: make(chan ingest.Batch, 2), failed: make(chan error, 1), done: make(chan struct{}), cancel: cancel}
+	go func() {
+		defer close(w.done)
+		for b := range w.batches {
+			if w.err != nil {
+				continue // drain
+			}
+			if w.err = write(ctx, b); w.err != nil {
+				w.failed <- w.err
+			}
+		}
+	}()
+	return w
+}
+
+// send queues b, or returns the write error that stopped the writer.
+func (w *writer) send(b ingest.Batch) error {
+	select {
+	case w.batches <- b:
+		return nil
+	case err := <-w.failed:
+		return err
+	}
+}
+
+// close waits for the queued batches (cancelling them when abandon is
+// set) and returns the first write error.
+func (w *writer) close(abandon bool) error {
+	if abandon {
+		w.cancel()
+	}
+	close(w.batches)
+	<-w.done
+	w.cancel()
+	return w.err
 }
 
 type countingReader struct {

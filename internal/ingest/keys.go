@@ -78,6 +78,15 @@ func NewRefSet() *RefSet {
 	return &RefSet{seed: maphash.MakeSeed(), index: map[uint64]int32{}, overflow: map[string]int32{}, stored: map[string]orderKey{}}
 }
 
+// reserve sizes an empty set for about n references.
+func (s *RefSet) reserve(n int) {
+	if len(s.entries) == 0 && n > 0 {
+		s.index = make(map[uint64]int32, n)
+		s.entries = make([]refEntry, 0, n)
+		s.arena = make([]byte, 0, 10*n)
+	}
+}
+
 // AddStored records a reference already stored in the dataset, with its
 // order, so that a file repeating the same order can be recognised.
 func (s *RefSet) AddStored(ref string, customer int32, day civil.Date, amount float64, hasAmount bool) {

@@ -4,7 +4,7 @@ import (
 	"context"
 	"crypto/rand"
 	"database/sql"
-	"encoding/json"
+	"database/sql/driver"
 	"errors"
 	"fmt"
 	"strings"
@@ -281,7 +281,8 @@ func (s *Store) CustomerKeys(ctx context.Context, datasetID int64) ([]string, er
 // particular order.
 func (s *Store) EachOrder(ctx context.Context, datasetID int64, fn func(customer int32, day civil.Date, amount float64, hasAmount bool, ref string)) error {
 	rows, err := s.r.QueryContext(ctx, `SELECT o.customer_id, o.day, o.amount, COALESCE(o.ref, '')
-		FROM orders o WHERE o.version_id IN (SELECT id FROM versions WHERE dataset_id = ? AND state = 'ready')`, datasetID)
+		FROM versions v JOIN orders o ON o.id BETWEEN v.id << 32 AND (v.id << 32) + 4294967295
+		WHERE v.dataset_id = ? AND v.state = 'ready' ORDER BY v.seq, o.id`, datasetID)
 	if err != nil {
 		return fmt.Errorf("orders of dataset %d: %w", datasetID, err)
 	}
@@ -298,108 +299,141 @@ func (s *Store) EachOrder(ctx context.Context, datasetID int64, fn func(customer
 	return rows.Err()
 }
 
-// WriteCustomers stores the rows of a customers file in one transaction:
-// customers new to the dataset are inserted as part of the import's
-// version, known ones get their details replaced.
+// WriteCustomers inserts the customers of a customers file that are new to
+// the dataset (ids ≥ firstNew) as part of the import's loading version, in
+// transactions of a few thousand rows so other writers are never kept
+// waiting long. Rows for customers already stored are ignored here: their
+// new details are applied by FinishImport, so that a rejected or crashed
+// import cannot change them.
 func (s *Store) WriteCustomers(ctx context.Context, imp Import, firstNew int32, attrNames []string, cs []ingest.Customer) error {
-	err := s.inTx(ctx, func(tx *sql.Tx) error {
-		ins, err := tx.PrepareContext(ctx, `INSERT INTO customers (dataset_id, id, key, version_id, email, signup_date, contactable, attributes)
-			VALUES (?, ?, ?, ?, ?, ?, ?, ?)`)
-		if err != nil {
-			return err
-		}
-		defer ins.Close()
-		upd, err := tx.PrepareContext(ctx, `UPDATE customers SET email = ?, signup_date = ?, contactable = ?, attributes = ?
-			WHERE dataset_id = ? AND id = ?`)
-		if err != nil {
-			return err
-		}
-		defer upd.Close()
-		for _, c := range cs {
-			var email, signup, attrs any
-			if c.Email != "" {
-				email = c.Email
-			}
-			if c.HasSignup {
-				signup = c.Signup.String()
-			}
-			if len(attrNames) > 0 {
-				m := make(map[string]string, len(attrNames))
-				for i, n := range attrNames {
-					m[n] = c.Attributes[i]
+	const perTx, perInsert = 5000, 100
+	for len(cs) > 0 {
+		chunk := cs[:min(len(cs), perTx)]
+		cs = cs[len(chunk):]
+		err := s.inTx(ctx, func(tx *sql.Tx) error {
+			args := make([]any, 0, 8*perInsert)
+			flush := func() error {
+				if len(args) == 0 {
+					return nil
 				}
-				b, _ := json.Marshal(m)
-				attrs = string(b)
+				_, err := tx.ExecContext(ctx, multiInsert(`INSERT INTO customers (dataset_id, id, key, version_id, email, signup_date, contactable, attributes) VALUES `,
+					"(?,?,?,?,?,?,?,?)", len(args)/8), args...)
+				args = args[:0]
+				return err
 			}
-			if c.ID >= firstNew {
-				_, err = ins.ExecContext(ctx, imp.DatasetID, c.ID, c.Key, imp.VersionID, email, signup, c.Contactable, attrs)
-			} else {
-				_, err = upd.ExecContext(ctx, email, signup, c.Contactable, attrs, imp.DatasetID, c.ID)
+			for _, c := range chunk {
+				if c.ID < firstNew {
+					continue
+				}
+				email, signup, attrs := customerDetails(attrNames, c)
+				args = append(args, imp.DatasetID, int64(c.ID), c.Key, imp.VersionID, email, signup, c.Contactable, attrs)
+				if len(args) == cap(args) {
+					if err := flush(); err != nil {
+						return err
+					}
+				}
 			}
-			if err != nil {
-				return fmt.Errorf("customer %q: %w", c.Key, err)
-			}
+			return flush()
+		})
+		if err != nil {
+			return fmt.Errorf("write customers of dataset %d: %w", imp.DatasetID, err)
 		}
-		return nil
-	})
-	if err != nil {
-		return fmt.Errorf("write customers of dataset %d: %w", imp.DatasetID, err)
 	}
 	return nil
+}
+
+// customerDetails returns the nullable columns of a customers-file row.
+func customerDetails(attrNames []string, c ingest.Customer) (email, signup, attrs any) {
+	if c.Email != "" {
+		email = c.Email
+	}
+	if c.HasSignup {
+		signup = c.Signup.String()
+	}
+	if len(attrNames) > 0 {
+		attrs = attributesJSON(attrNames, c.Attributes)
+	}
+	return email, signup, attrs
+}
+
+// updateCustomers replaces the details of customers already stored.
+func updateCustomers(ctx context.Context, tx *sql.Tx, datasetID int64, attrNames []string, cs []ingest.Customer) error {
+	if len(cs) == 0 {
+		return nil
+	}
+	upd, err := tx.PrepareContext(ctx, `UPDATE customers SET email = ?, signup_date = ?, contactable = ?, attributes = ?
+		WHERE dataset_id = ? AND id = ?`)
+	if err != nil {
+		return err
+	}
+	defer upd.Close()
+	for _, c := range cs {
+		email, signup, attrs := customerDetails(attrNames, c)
+		if _, err := upd.ExecContext(ctx, email, signup, c.Contactable, attrs, datasetID, c.ID); err != nil {
+			return fmt.Errorf("update customer %q: %w", c.Key, err)
+		}
+	}
+	return nil
+}
+
+// attributesJSON encodes attribute names and values as a JSON object in
+// column order (json.Marshal of a map would sort and cost a map per row).
+func attributesJSON(names, values []string) string {
+	var b strings.Builder
+	b.WriteByte('{')
+	for i, n := range names {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		writeJSONString(&b, n)
+		b.WriteByte(':')
+		writeJSONString(&b, values[i])
+	}
+	b.WriteByte('}')
+	return b.String()
+}
+
+// writeJSONString writes s as a JSON string (RFC 8259 section 7).
+func writeJSONString(b *strings.Builder, s string) {
+	const hex = "0123456789abcdef"
+	b.WriteByte('"')
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		switch {
+		case c == '"' || c == '\\':
+			b.WriteByte('\\')
+			b.WriteByte(c)
+		case c < 0x20:
+			b.WriteString(`\u00`)
+			b.WriteByte(hex[c>>4])
+			b.WriteByte(hex[c&0xF])
+		default:
+			b.WriteByte(c)
+		}
+	}
+	b.WriteByte('"')
 }
 
 // rowsPerInsert is the number of orders in one multi-row INSERT; SQLite
 // parses one statement for many rows (PLATFORM.md: about twice the rate of
 // single-row inserts).
-const rowsPerInsert = 200
+const rowsPerInsert = 400
 
 // WriteOrders stores one batch — its new customers and its orders — in one
 // transaction of the loading version.
+//
+// The rows go through the driver directly (sql.Conn.Raw) rather than
+// database/sql: database/sql converts every argument of every statement
+// into a fresh driver.NamedValue (over 200 MB for a million orders), which
+// cost more time than SQLite's own work. Here one argument slice is reused.
 func (s *Store) WriteOrders(ctx context.Context, imp Import, b ingest.Batch) error {
-	err := s.inTx(ctx, func(tx *sql.Tx) error {
-		if len(b.NewKeys) > 0 {
-			ins, err := tx.PrepareContext(ctx, `INSERT INTO customers (dataset_id, id, key, version_id) VALUES (?, ?, ?, ?)`)
-			if err != nil {
-				return err
-			}
-			defer ins.Close()
-			for i, k := range b.NewKeys {
-				if _, err := ins.ExecContext(ctx, imp.DatasetID, b.FirstNewID+int32(i), k, imp.VersionID); err != nil {
-					return fmt.Errorf("customer %q: %w", k, err)
-				}
-			}
-		}
-		full, err := tx.PrepareContext(ctx, orderInsert(rowsPerInsert))
-		if err != nil {
-			return err
-		}
-		defer full.Close()
-		args := make([]any, 0, 5*rowsPerInsert)
-		orders := b.Orders
-		for len(orders) > 0 {
-			n := min(len(orders), rowsPerInsert)
-			args = args[:0]
-			for _, o := range orders[:n] {
-				var amount, ref any
-				if o.HasAmount {
-					amount = o.Amount
-				}
-				if o.Ref != "" {
-					ref = o.Ref
-				}
-				args = append(args, imp.VersionID, int64(o.Customer), int64(o.Day), amount, ref)
-			}
-			if n == rowsPerInsert {
-				_, err = full.ExecContext(ctx, args...)
-			} else {
-				_, err = tx.ExecContext(ctx, orderInsert(n), args...)
-			}
-			if err != nil {
-				return err
-			}
-			orders = orders[n:]
-		}
-		return nil
+	conn, err := s.w.Conn(ctx)
+	if err != nil {
+		return fmt.Errorf("write orders of dataset %d: %w", imp.DatasetID, err)
+	}
+	defer conn.Close()
+	err = conn.Raw(func(dc any) error {
+		return writeOrdersRaw(ctx, dc, imp, b)
 	})
 	if err != nil {
 		return fmt.Errorf("write orders of dataset %d: %w", imp.DatasetID, err)
@@ -407,16 +441,134 @@ func (s *Store) WriteOrders(ctx context.Context, imp Import, b ingest.Batch) err
 	return nil
 }
 
-func orderInsert(n int) string {
+func writeOrdersRaw(ctx context.Context, dc any, imp Import, b ingest.Batch) (err error) {
+	beginner, ok1 := dc.(driver.ConnBeginTx)
+	preparer, ok2 := dc.(driver.ConnPrepareContext)
+	if !ok1 || !ok2 {
+		return fmt.Errorf("sqlite driver connection %T lacks BeginTx or PrepareContext", dc)
+	}
+	tx, err := beginner.BeginTx(ctx, driver.TxOptions{})
+	if err != nil {
+		return err
+	}
+	defer func() {
+		if err != nil {
+			tx.Rollback()
+		}
+	}()
+	var args []driver.NamedValue
+	bind := func(vals ...driver.Value) {
+		for _, v := range vals {
+			args = append(args, driver.NamedValue{Ordinal: len(args) + 1, Value: v})
+		}
+	}
+	// run executes query with args, preparing it once per distinct query.
+	stmts := map[string]driver.StmtExecContext{}
+	defer func() {
+		for _, st := range stmts {
+			st.(driver.Stmt).Close()
+		}
+	}()
+	run := func(query string) error {
+		st, ok := stmts[query]
+		if !ok {
+			p, err := preparer.PrepareContext(ctx, query)
+			if err != nil {
+				return err
+			}
+			st = p.(driver.StmtExecContext)
+			stmts[query] = st
+		}
+		_, err := st.ExecContext(ctx, args)
+		return err
+	}
+
+	// New customers, 100 a statement.
+	const perCustomer = 100
+	keys, first := b.NewKeys, int64(b.FirstNewID)
+	for len(keys) > 0 {
+		n := min(len(keys), perCustomer)
+		args = args[:0]
+		for i, k := range keys[:n] {
+			bind(imp.DatasetID, first+int64(i), k, imp.VersionID)
+		}
+		if err := run(multiInsert(`INSERT INTO customers (dataset_id, id, key, version_id) VALUES `, "(?,?,?,?)", n)); err != nil {
+			return fmt.Errorf("insert customers %d to %d: %w", first, first+int64(n)-1, err)
+		}
+		keys, first = keys[n:], first+int64(n)
+	}
+
+	// The next order id continues the version's range (see 0001_datasets.sql).
+	next, err := nextOrderID(ctx, preparer, imp.VersionID)
+	if err != nil {
+		return err
+	}
+	orders := b.Orders
+	for len(orders) > 0 {
+		n := min(len(orders), rowsPerInsert)
+		args = args[:0]
+		for i, o := range orders[:n] {
+			var amount, ref driver.Value
+			if o.HasAmount {
+				amount = o.Amount
+			}
+			if o.Ref != "" {
+				ref = o.Ref
+			}
+			bind(next+int64(i), int64(o.Customer), int64(o.Day), amount, ref)
+		}
+		if err := run(orderInsert(n)); err != nil {
+			return err
+		}
+		orders = orders[n:]
+		next += int64(n)
+	}
+	return tx.Commit()
+}
+
+// nextOrderID returns the id the version's next order gets.
+func nextOrderID(ctx context.Context, preparer driver.ConnPrepareContext, versionID int64) (int64, error) {
+	st, err := preparer.PrepareContext(ctx, `SELECT COALESCE(max(id) + 1, ?1 << 32) FROM orders WHERE id BETWEEN ?1 << 32 AND (?1 << 32) + 4294967295`)
+	if err != nil {
+		return 0, err
+	}
+	defer st.Close()
+	rows, err := st.(driver.StmtQueryContext).QueryContext(ctx, []driver.NamedValue{{Ordinal: 1, Value: versionID}})
+	if err != nil {
+		return 0, err
+	}
+	defer rows.Close()
+	dest := make([]driver.Value, 1)
+	if err := rows.Next(dest); err != nil {
+		return 0, err
+	}
+	next, ok := dest[0].(int64)
+	if !ok {
+		return 0, fmt.Errorf("next order id of version %d: got %T", versionID, dest[0])
+	}
+	return next, nil
+}
+
+// multiInsert repeats one row's placeholders n times after head. Only
+// placeholders are repeated: values are always bound, never formatted in.
+func multiInsert(head, row string, n int) string {
 	var b strings.Builder
-	b.WriteString(`INSERT INTO orders (version_id, customer_id, day, amount, ref) VALUES `)
+	b.Grow(len(head) + n*(len(row)+1))
+	b.WriteString(head)
 	for i := 0; i < n; i++ {
 		if i > 0 {
 			b.WriteByte(',')
 		}
-		b.WriteString("(?,?,?,?,?)")
+		b.WriteString(row)
 	}
 	return b.String()
+}
+
+// orderInsert is a multi-row INSERT of n orders. (Numbered placeholders
+// would let rows share one value, but modernc's driver looks each one up
+// by a linear search: four times slower at this size.)
+func orderInsert(n int) string {
+	return multiInsert(`INSERT INTO orders (id, customer_id, day, amount, ref) VALUES `, "(?,?,?,?,?)", n)
 }
 
 // ImportStats are the figures recorded when a version becomes ready.
@@ -430,10 +582,16 @@ type ImportStats struct {
 	CustomersRead  int
 	FirstDay       civil.Date // of the orders added; ignored when none were
 	LastDay        civil.Date
+	// Updates are customers-file rows for customers stored before this
+	// import, with the file's attribute columns; FinishImport applies them.
+	Updates        []ingest.Customer
+	AttributeNames []string
 }
 
 // FinishImport makes the loading version ready, in one small transaction:
 // from then on every reader sees all of it, and before then none of it.
+// Changed details of customers stored before are applied in the same
+// transaction.
 func (s *Store) FinishImport(ctx context.Context, imp Import, st ImportStats) error {
 	err := s.inTx(ctx, func(tx *sql.Tx) error {
 		var ordersTotal, customersTotal int
@@ -471,7 +629,7 @@ func (s *Store) FinishImport(ctx context.Context, imp Import, st ImportStats) er
 		if n, _ := res.RowsAffected(); n != 1 {
 			return fmt.Errorf("version %d is no longer loading", imp.VersionID)
 		}
-		return nil
+		return updateCustomers(ctx, tx, imp.DatasetID, st.AttributeNames, st.Updates)
 	})
 	if err != nil {
 		return fmt.Errorf("finish import of version %d: %w", imp.VersionID, err)
@@ -483,7 +641,7 @@ func (s *Store) FinishImport(ctx context.Context, imp Import, st ImportStats) er
 // dataset too when the import had created it.
 func (s *Store) AbortImport(ctx context.Context, imp Import) error {
 	err := s.inTx(ctx, func(tx *sql.Tx) error {
-		if _, err := tx.ExecContext(ctx, `DELETE FROM versions WHERE id = ? AND state = 'loading'`, imp.VersionID); err != nil {
+		if _, err := deleteVersions(ctx, tx, `id = ? AND state = 'loading'`, imp.VersionID); err != nil {
 			return err
 		}
 		return deleteEmptyDatasets(ctx, tx)
@@ -500,17 +658,47 @@ func (s *Store) AbortImport(ctx context.Context, imp Import) error {
 func (s *Store) PurgeLoading(ctx context.Context) (int, error) {
 	var n int64
 	err := s.inTx(ctx, func(tx *sql.Tx) error {
-		res, err := tx.ExecContext(ctx, `DELETE FROM versions WHERE state = 'loading'`)
-		if err != nil {
+		var err error
+		if n, err = deleteVersions(ctx, tx, `state = 'loading'`); err != nil {
 			return err
 		}
-		n, _ = res.RowsAffected()
 		return deleteEmptyDatasets(ctx, tx)
 	})
 	if err != nil {
 		return 0, fmt.Errorf("purge loading versions: %w", err)
 	}
 	return int(n), nil
+}
+
+// deleteVersions deletes the versions matching cond with their orders
+// (customers they added go by ON DELETE CASCADE) and returns how many.
+func deleteVersions(ctx context.Context, tx *sql.Tx, cond string, args ...any) (int64, error) {
+	rows, err := tx.QueryContext(ctx, `SELECT id FROM versions WHERE `+cond, args...)
+	if err != nil {
+		return 0, err
+	}
+	var ids []int64
+	for rows.Next() {
+		var id int64
+		if err := rows.Scan(&id); err != nil {
+			rows.Close()
+			return 0, err
+		}
+		ids = append(ids, id)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return 0, err
+	}
+	for _, id := range ids {
+		if _, err := tx.ExecContext(ctx, `DELETE FROM orders WHERE id BETWEEN ?1 << 32 AND (?1 << 32) + 4294967295`, id); err != nil {
+			return 0, err
+		}
+		if _, err := tx.ExecContext(ctx, `DELETE FROM versions WHERE id = ?`, id); err != nil {
+			return 0, err
+		}
+	}
+	return int64(len(ids)), nil
 }
 
 func deleteEmptyDatasets(ctx context.Context, tx *sql.Tx) error {

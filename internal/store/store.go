@@ -24,8 +24,9 @@ import (
 // Store is the database. Its methods are safe for concurrent use.
 type Store struct {
 	path string
-	w    *sql.DB // one connection: every write goes through it
-	r    *sql.DB // read-only pool
+	lock *fileLock // held shared while open; see Open
+	w    *sql.DB   // one connection: every write goes through it
+	r    *sql.DB   // read-only pool
 	now  func() time.Time
 }
 
@@ -71,9 +72,25 @@ func Open(ctx context.Context, path string, opt Options) (*Store, error) {
 	r.SetMaxOpenConns(opt.Readers)
 	r.SetMaxIdleConns(opt.Readers)
 	s.r = r
-	if _, err := s.PurgeLoading(ctx); err != nil {
+	// Versions left loading are purged only when no other process has the
+	// database open: another ebb (a server while "ebb import" starts, say)
+	// may be in the middle of an import. Every open Store holds a shared
+	// lock on PATH.lock; the purge needs it exclusively for a moment.
+	lock, alone, err := lockFile(path + ".lock")
+	if err != nil {
 		s.Close()
-		return nil, err
+		return nil, fmt.Errorf("open %s: %w", path, err)
+	}
+	s.lock = lock
+	if alone {
+		if _, err := s.PurgeLoading(ctx); err != nil {
+			s.Close()
+			return nil, err
+		}
+	}
+	if err := lock.share(); err != nil {
+		s.Close()
+		return nil, fmt.Errorf("open %s: %w", path, err)
 	}
 	return s, nil
 }
@@ -92,9 +109,16 @@ func dsn(path string, readOnly bool) string {
 		q.Add("_pragma", "query_only(1)")
 	} else {
 		q.Set("_txlock", "immediate")
+		// A larger page cache for the one writer keeps index pages of a
+		// large import in memory (32 MiB; the default is 2 MiB).
+		q.Add("_pragma", "cache_size(-32768)")
 	}
-	return "file:" + path + "?" + q.Encode()
+	// The path is part of a URI: escape what SQLite would read as URI
+	// syntax, so a folder named "shop#2" is not cut at the '#'.
+	return "file:" + uriPath.Replace(path) + "?" + q.Encode()
 }
+
+var uriPath = strings.NewReplacer("%", "%25", "?", "%3f", "#", "%23")
 
 // Close closes both pools.
 func (s *Store) Close() error {
@@ -104,6 +128,9 @@ func (s *Store) Close() error {
 	}
 	if e := s.w.Close(); e != nil && err == nil {
 		err = e
+	}
+	if s.lock != nil {
+		s.lock.release()
 	}
 	return err
 }
