@@ -6,5 +6,5 @@ import "embed"
 
 // FS holds the files of this folder.
 //
-//go:embed *.css
+//go:embed *.css *.js
 var FS embed.FS

@@ -1,60 +1,140 @@
 // Package web is ebb's HTTP face: the chi router, handlers, middleware and
 // templ views. Handlers parse input, call one function, then render,
-// redirect or stream; nothing slow runs in a handler.
+// redirect or stream; anything slow runs as a job.
 package web
 
 import (
-	"bytes"
 	"context"
-	"crypto/rand"
-	"encoding/hex"
 	"log/slog"
 	"net/http"
+	"time"
 
-	"github.com/a-h/templ"
 	"github.com/go-chi/chi/v5"
 	"github.com/go-chi/chi/v5/middleware"
 
-	"ebb/internal/problem"
+	"ebb/internal/auth"
+	"ebb/internal/civil"
+	"ebb/internal/jobs"
 	"ebb/internal/store"
 	"ebb/static"
-	"ebb/web/views"
 )
 
 // Store is what the handlers need from storage.
 type Store interface {
 	Datasets(ctx context.Context) ([]store.Dataset, error)
+	DatasetByID(ctx context.Context, id int64) (store.Dataset, error)
+	Versions(ctx context.Context, datasetID int64) ([]store.Version, error)
+	VersionStats(ctx context.Context, versionID int64) (store.VersionStats, error)
+	SetDataThrough(ctx context.Context, datasetID int64, day *civil.Date) error
+	UserByID(ctx context.Context, id int64) (auth.User, error)
+	Users(ctx context.Context) ([]auth.User, error)
+	SetDisabled(ctx context.Context, id int64, disabled bool) error
+	InsertUpload(ctx context.Context, u store.Upload) (int64, error)
+	UploadByToken(ctx context.Context, token string) (store.Upload, error)
+	Setting(ctx context.Context, key string) (string, error)
+	SetSetting(ctx context.Context, key, value string) error
+	CountUsers(ctx context.Context) (int, error)
+}
+
+// Jobs is what the handlers need from the job runner.
+type Jobs interface {
+	Submit(ctx context.Context, kind string, datasetID int64, params []byte, by string) (int64, error)
+	Get(ctx context.Context, id int64) (jobs.Job, error)
+	List(ctx context.Context, f jobs.Filter) ([]jobs.Job, error)
+	Cancel(ctx context.Context, id int64) error
+	Rerun(ctx context.Context, id int64, by string) (int64, error)
+}
+
+// Config holds the server's settings.
+type Config struct {
+	UploadDir string // where uploaded files wait for their import
+	MaxUpload int64  // bytes per upload request
+	Now       func() time.Time
 }
 
 // Server serves ebb's pages.
 type Server struct {
-	store  Store
-	log    *slog.Logger
-	router chi.Router
+	store    Store
+	accounts *auth.Accounts
+	sessions *auth.Sessions
+	jobs     Jobs
+	log      *slog.Logger
+	cfg      Config
+	router   chi.Router
 }
 
-// New returns a server over st that logs to log.
-func New(st Store, log *slog.Logger) *Server {
-	s := &Server{store: st, log: log}
+// New returns a server.
+func New(st Store, accounts *auth.Accounts, sessions *auth.Sessions, jr Jobs, log *slog.Logger, cfg Config) *Server {
+	if cfg.MaxUpload <= 0 {
+		cfg.MaxUpload = 1 << 30
+	}
+	if cfg.Now == nil {
+		cfg.Now = time.Now
+	}
+	s := &Server{store: st, accounts: accounts, sessions: sessions, jobs: jr, log: log, cfg: cfg}
 	s.router = s.routes()
 	return s
 }
 
 func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) { s.router.ServeHTTP(w, r) }
 
-// routes lists every route of the server.
+// Router exposes the routes, for the test that walks them all.
+func (s *Server) Router() chi.Router { return s.router }
+
+// routes lists every route of the server, grouped by the role it needs.
+// web's route table test fails for a route it does not know.
 func (s *Server) routes() chi.Router {
 	r := chi.NewRouter()
 	r.Use(middleware.Recoverer)
 	r.Use(securityHeaders)
 	r.Use(http.NewCrossOriginProtection().Handler)
+	r.Use(s.identify)
 	r.NotFound(s.handleNotFound)
+	r.MethodNotAllowed(s.handleMethodNotAllowed)
 
+	// Anyone.
 	r.Get("/healthz", s.handleHealth)
-	r.Handle("/static/*", http.StripPrefix("/static/", staticFiles()))
+	r.Get("/static/*", http.StripPrefix("/static/", staticFiles()).ServeHTTP)
+	r.Get("/signin", s.handleSignInForm)
+	r.Post("/signin", s.handleSignIn)
+	r.Get("/setup/{token}", s.handleSetupForm)
+	r.Post("/setup/{token}", s.handleSetup)
 
-	r.Get("/", http.RedirectHandler("/datasets", http.StatusSeeOther).ServeHTTP)
-	r.Get("/datasets", s.handleDatasets)
+	r.Group(func(r chi.Router) {
+		r.Use(s.require(auth.Viewer))
+		r.Get("/", s.handleStart)
+		r.Post("/signout", s.handleSignOut)
+		r.Get("/account", s.handleAccount)
+		r.Post("/account/password", s.handlePasswordChange)
+	})
+
+	r.Group(func(r chi.Router) {
+		r.Use(s.require(auth.Analyst))
+		r.Get("/datasets", s.handleDatasets)
+		r.Get("/datasets/{id}", s.handleDatasetShow)
+		r.Post("/datasets/{id}/data-through", s.handleDataThrough)
+		r.Get("/datasets/{id}/orders-per-month.svg", s.handleMonthlyChart)
+		r.Get("/datasets/{id}/orders-per-month.png", s.handleMonthlyChart)
+		r.Get("/uploads/new", s.handleUploadForm)
+		r.Post("/uploads", s.handleUpload)
+		r.Get("/uploads/{token}", s.handleMappingForm)
+		r.Post("/uploads/{token}/import", s.handleImport)
+		r.Get("/uploads/{token}/problems.csv", s.handleProblemReport)
+		r.Get("/jobs", s.handleJobs)
+		r.Get("/jobs/{id}", s.handleJobShow)
+		r.Get("/jobs/{id}/status", s.handleJobStatus)
+		r.Post("/jobs/{id}/cancel", s.handleJobCancel)
+		r.Post("/jobs/{id}/rerun", s.handleJobRerun)
+	})
+
+	r.Group(func(r chi.Router) {
+		r.Use(s.require(auth.Admin))
+		r.Get("/admin/users", s.handleUsers)
+		r.Post("/admin/users", s.handleUserAdd)
+		r.Post("/admin/users/{id}/disable", s.handleUserDisable)
+		r.Post("/admin/users/{id}/enable", s.handleUserEnable)
+		r.Post("/admin/users/{id}/reset", s.handleUserReset)
+	})
 	return r
 }
 
@@ -80,82 +160,62 @@ func securityHeaders(next http.Handler) http.Handler {
 	})
 }
 
-func (s *Server) handleHealth(w http.ResponseWriter, r *http.Request) {
-	w.Header().Set("Content-Type", "text/plain; charset=utf-8")
-	w.Write([]byte("ok\n"))
-}
+type ctxKey int
 
-func (s *Server) handleDatasets(w http.ResponseWriter, r *http.Request) {
-	ds, err := s.store.Datasets(r.Context())
-	if err != nil {
-		s.fail(w, r, err)
-		return
-	}
-	v := views.DatasetsView{}
-	for _, d := range ds {
-		v.Datasets = append(v.Datasets, views.DatasetRow{
-			Name: d.Name, Orders: views.Count(d.Orders), Customers: views.Count(d.Customers),
-			FirstDay: d.FirstDay.String(), LastDay: d.LastDay.String(), DataThrough: d.DataThrough().String(),
-			TimeZone: d.TimeZone, Version: views.Count(d.Seq),
-		})
-	}
-	s.render(w, r, http.StatusOK, views.Datasets(v))
-}
+const userKey ctxKey = 1
 
-func (s *Server) handleNotFound(w http.ResponseWriter, r *http.Request) {
-	s.render(w, r, http.StatusNotFound, views.Error(views.ErrorView{
-		Title: "Page not found", Message: "There is no page at this address. It may have moved; start again from the datasets page.",
-	}))
-}
-
-// render writes c into a buffer first, so a render error becomes a clean
-// error page rather than half a page.
-func (s *Server) render(w http.ResponseWriter, r *http.Request, status int, c templ.Component) {
-	var buf bytes.Buffer
-	if err := c.Render(r.Context(), &buf); err != nil {
-		s.fail(w, r, err)
-		return
-	}
-	w.Header().Set("Content-Type", "text/html; charset=utf-8")
-	w.WriteHeader(status)
-	buf.WriteTo(w)
-}
-
-// fail shows a problem's own message with a fitting status, and any other
-// error as "Something went wrong" with a reference that the log line
-// carries beside the whole error.
-func (s *Server) fail(w http.ResponseWriter, r *http.Request, err error) {
-	if p := problem.As(err); p != nil {
-		status, title := http.StatusBadRequest, "That did not work"
-		switch p.Kind {
-		case problem.NotFound:
-			status, title = http.StatusNotFound, "Not found"
-		case problem.Conflict:
-			status, title = http.StatusConflict, "That clashes with the current state"
-		case problem.Forbidden:
-			status, title = http.StatusForbidden, "Not allowed"
-		case problem.Invalid:
-			status = http.StatusUnprocessableEntity
+// identify puts the signed-in user, if any, into the request's context.
+// A disabled user's sessions are gone from the store, so they show as
+// signed out at once.
+func (s *Server) identify(next http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		sess, err := s.sessions.Get(r, s.sessions.Name)
+		if err != nil {
+			s.fail(w, r, err)
+			return
 		}
-		s.writeError(w, r, status, views.ErrorView{Title: title, Message: p.Message})
-		return
-	}
-	b := make([]byte, 3)
-	rand.Read(b)
-	ref := hex.EncodeToString(b)
-	s.log.Error("request failed", "ref", ref, "method", r.Method, "path", r.URL.Path, "err", err)
-	s.writeError(w, r, http.StatusInternalServerError, views.ErrorView{
-		Title: "Something went wrong", Message: "ebb could not finish this request. Try again in a moment.", Ref: ref,
+		if id := auth.UserID(sess); id != 0 {
+			u, err := s.store.UserByID(r.Context(), id)
+			if err == nil && !u.Disabled {
+				r = r.WithContext(context.WithValue(r.Context(), userKey, u))
+			}
+		}
+		next.ServeHTTP(w, r)
 	})
 }
 
-func (s *Server) writeError(w http.ResponseWriter, r *http.Request, status int, v views.ErrorView) {
-	var buf bytes.Buffer
-	if err := views.Error(v).Render(r.Context(), &buf); err != nil {
-		http.Error(w, v.Title, status)
-		return
+// currentUser returns the signed-in user.
+func currentUser(r *http.Request) (auth.User, bool) {
+	u, ok := r.Context().Value(userKey).(auth.User)
+	return u, ok
+}
+
+// require lets through users whose role allows need; others are sent to
+// sign in (when signed out) or refused (when signed in).
+func (s *Server) require(need auth.Role) func(http.Handler) http.Handler {
+	return func(next http.Handler) http.Handler {
+		return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+			u, ok := currentUser(r)
+			if !ok {
+				target := "/signin"
+				if r.Method == http.MethodGet && r.URL.Path != "/" {
+					target += "?next=" + urlQueryEscape(r.URL.RequestURI())
+				}
+				http.Redirect(w, r, target, http.StatusSeeOther)
+				return
+			}
+			if !u.Role.Allows(need) {
+				s.writeError(w, r, http.StatusForbidden, "Not allowed",
+					"This page needs the "+need.String()+" role; you are signed in as a "+u.Role.String()+".",
+					"Ask an administrator if you need it.", "")
+				return
+			}
+			next.ServeHTTP(w, r)
+		})
 	}
-	w.Header().Set("Content-Type", "text/html; charset=utf-8")
-	w.WriteHeader(status)
-	buf.WriteTo(w)
+}
+
+func (s *Server) handleHealth(w http.ResponseWriter, r *http.Request) {
+	w.Header().Set("Content-Type", "text/plain; charset=utf-8")
+	w.Write([]byte("ok\n"))
 }

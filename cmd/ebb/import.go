@@ -2,12 +2,9 @@ package main
 
 import (
 	"context"
-	"encoding/csv"
 	"errors"
 	"fmt"
-	"os"
 	"path/filepath"
-	"strconv"
 
 	"ebb/internal/analysis"
 	"ebb/internal/ingest"
@@ -84,12 +81,12 @@ reported. Exit status 0 on success, 1 when rejected.`,
 					defer cf.Close()
 					req.Customers = &analysis.Source{Name: filepath.Base(o.customers), R: cf, Size: csize}
 				}
-				var report *problemReport
+				var report *analysis.Report
 				if o.report != "" {
-					if report, err = newProblemReport(o.report); err != nil {
+					if report, err = analysis.CreateReport(o.report); err != nil {
 						return fmt.Errorf("import: --report: %w", err)
 					}
-					req.OnProblem = report.add
+					req.OnProblem = report.Add
 				}
 
 				st, err := store.Open(ctx, o.db, store.Options{})
@@ -99,7 +96,7 @@ reported. Exit status 0 on success, 1 when rejected.`,
 				defer st.Close()
 				res, err := analysis.Import(ctx, st, req)
 				if report != nil {
-					if cerr := report.close(); cerr != nil && err == nil {
+					if cerr := report.Close(); cerr != nil && err == nil {
 						err = fmt.Errorf("import: --report: %w", cerr)
 					}
 				}
@@ -162,33 +159,4 @@ func printImportSummary(e env, res *analysis.ImportResult, report string) {
 		line += fmt.Sprintf("; %d rows already stored were left out (first on line %d)", s.Repeats, s.RepeatLines[0])
 	}
 	fmt.Fprintln(e.stdout, line)
-}
-
-// problemReport writes every problem to a CSV file as it is found.
-type problemReport struct {
-	f *os.File
-	w *csv.Writer
-}
-
-func newProblemReport(path string) (*problemReport, error) {
-	f, err := os.Create(path)
-	if err != nil {
-		return nil, err
-	}
-	w := csv.NewWriter(f)
-	w.Write([]string{"file", "line", "column_number", "column", "problem"})
-	return &problemReport{f: f, w: w}, nil
-}
-
-func (r *problemReport) add(p ingest.Problem) {
-	r.w.Write([]string{p.File, strconv.Itoa(p.Line), strconv.Itoa(p.Col), p.Column, p.Message})
-}
-
-func (r *problemReport) close() error {
-	r.w.Flush()
-	if err := r.w.Error(); err != nil {
-		r.f.Close()
-		return err
-	}
-	return r.f.Close()
 }

@@ -155,7 +155,7 @@ func runImport(ctx context.Context, st *store.Store, imp store.Import, req Impor
 			return err
 		}
 		if req.Orders.Size > 0 {
-			progress(min(99, 100*float64(counter.n)/float64(req.Orders.Size)), "importing orders")
+			progress(min(95, 95*float64(counter.n)/float64(req.Orders.Size)), "importing orders")
 		}
 		return nil
 	})
@@ -174,6 +174,16 @@ func runImport(ctx context.Context, st *store.Store, imp store.Import, req Impor
 	stats.RowsSkipped = sum.Skipped
 	stats.RepeatsSkipped = sum.Repeats
 	stats.FirstDay, stats.LastDay = sum.FirstDay, sum.LastDay
+	// The figures pages show are computed once, now, and stored with the
+	// version (a failed import takes them with it).
+	progress(97, "counting order days, customers and months")
+	vs, err := st.ComputeVersionStats(ctx, imp.VersionID)
+	if err != nil {
+		return res, err
+	}
+	if err := st.SaveVersionStats(ctx, imp.VersionID, vs); err != nil {
+		return res, err
+	}
 	progress(99, "making the new version visible")
 	if err := st.FinishImport(ctx, imp, stats); err != nil {
 		return res, err

@@ -4,6 +4,7 @@
 package views
 
 import (
+	"net/url"
 	"strconv"
 	"strings"
 )
@@ -26,4 +27,45 @@ func Count(n int) string {
 		b.WriteRune(c)
 	}
 	return b.String()
+}
+
+func userAction(id int64, action string) string {
+	return "/admin/users/" + strconv.FormatInt(id, 10) + "/" + action
+}
+
+func datasetURL(id int64) string { return "/datasets/" + strconv.FormatInt(id, 10) }
+
+func plural(n int) string {
+	if n == 1 {
+		return ""
+	}
+	return "s"
+}
+
+func appendURL(dataset string) string { return "/uploads/new?append=" + url.QueryEscape(dataset) }
+
+func jobURL(id int64) string { return "/jobs/" + strconv.FormatInt(id, 10) }
+
+// Percent formats a share (0–1) as a whole percentage, or with one decimal
+// below 10%.
+func Percent(x float64) string {
+	p := 100 * x
+	if p < 10 && p != 0 {
+		return strconv.FormatFloat(p, 'f', 1, 64) + "%"
+	}
+	return strconv.FormatFloat(p, 'f', 0, 64) + "%"
+}
+
+// Bytes formats a size in bytes with binary units: 1 GiB, 512 MiB.
+func Bytes(n int64) string {
+	units := []string{"bytes", "KiB", "MiB", "GiB", "TiB"}
+	f, i := float64(n), 0
+	for f >= 1024 && i < len(units)-1 {
+		f /= 1024
+		i++
+	}
+	if f == float64(int64(f)) {
+		return strconv.FormatInt(int64(f), 10) + " " + units[i]
+	}
+	return strconv.FormatFloat(f, 'f', 1, 64) + " " + units[i]
 }

@@ -1,0 +1,151 @@
+package web
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/chromedp/chromedp"
+
+	"ebb/demo"
+	"ebb/internal/browser"
+)
+
+// page wraps a browser tab with the test's failure handling.
+type page struct {
+	t   *testing.T
+	ctx context.Context
+	url string
+}
+
+func (p *page) do(actions ...chromedp.Action[chromedp.Void]) {
+	p.t.Helper()
+	if err := chromedp.Do(p.ctx, actions...); err != nil {
+		p.t.Fatal(err)
+	}
+}
+
+func (p *page) text(sel string) string {
+	p.t.Helper()
+	v, err := chromedp.Run(p.ctx, chromedp.Text(chromedp.CSS(sel)))
+	if err != nil {
+		p.t.Fatalf("text of %s: %v", sel, err)
+	}
+	return strings.TrimSpace(v)
+}
+
+func (p *page) eval(js string) bool {
+	p.t.Helper()
+	v, err := chromedp.Run(p.ctx, chromedp.Evaluate[bool]("!!("+js+")"))
+	if err != nil {
+		p.t.Fatalf("evaluate %s: %v", js, err)
+	}
+	return v
+}
+
+// waitFor polls a JavaScript condition until it holds.
+func (p *page) waitFor(js string, within time.Duration) {
+	p.t.Helper()
+	deadline := time.Now().Add(within)
+	for !p.eval(js) {
+		if time.Now().After(deadline) {
+			browser.Screenshot(p.t, p.ctx, "timeout")
+			p.t.Fatalf("waited %v for %s", within, js)
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+}
+
+func (p *page) signIn(name string) {
+	p.t.Helper()
+	p.do(chromedp.Navigate(p.url+"/signin"),
+		chromedp.WaitVisible(chromedp.CSS("#name")),
+		chromedp.SendKeys(chromedp.CSS("#name"), name),
+		chromedp.SendKeys(chromedp.CSS("#password"), password),
+		chromedp.Click(chromedp.CSS("form button[type=submit]")),
+		chromedp.WaitVisible(chromedp.CSS("header .who")))
+}
+
+// upload sends a file through the upload page and confirms the mapping
+// with the dataset name given, returning on the job page.
+func (p *page) upload(file, dataset string) {
+	p.t.Helper()
+	p.do(chromedp.Navigate(p.url+"/uploads/new"),
+		chromedp.WaitVisible(chromedp.CSS("#orders")),
+		chromedp.SetUploadFiles(chromedp.CSS("#orders"), []string{file}),
+		chromedp.Click(chromedp.CSS("main form button[type=submit]")),
+		chromedp.WaitVisible(chromedp.CSS("table.preview")))
+	browser.Screenshot(p.t, p.ctx, "mapping-"+dataset)
+	p.eval(`(() => { document.querySelector("#name").value = ""; return true })()`)
+	p.do(chromedp.SendKeys(chromedp.CSS("#name"), dataset),
+		chromedp.Click(chromedp.CSS("main form button[type=submit]")),
+		chromedp.WaitVisible(chromedp.CSS("#job-progress")))
+}
+
+// TestBrowserImportFlow walks the whole import as an analyst would: sign
+// in, upload the demo orders, confirm the mapping, watch the job reach
+// done, open the dataset page with its chart; then a broken file shows its
+// line and column messages; and a viewer cannot reach the upload page.
+func TestBrowserImportFlow(t *testing.T) {
+	e := newEnv(t, false)
+	dir := t.TempDir()
+	if err := demo.WriteDir(dir, demo.Options{}); err != nil {
+		t.Fatal(err)
+	}
+	broken := filepath.Join(dir, "broken.csv")
+	os.WriteFile(broken, []byte("customer_id,order_date,amount\nC1,2024-01-05,12.50\nC2,2024-02-30,3\nC3,2024-03-01,ten\n"), 0o644)
+
+	ctx := browser.New(t)
+	ctx, cancel := context.WithTimeout(ctx, 90*time.Second)
+	defer cancel()
+	p := &page{t: t, ctx: ctx, url: e.srv.URL}
+
+	p.signIn("test-analyst")
+	browser.Screenshot(t, ctx, "start")
+	p.upload(filepath.Join(dir, "orders.csv"), "refills")
+	browser.Screenshot(t, ctx, "job-running")
+	// The script polls the job and reloads the page when it is finished.
+	p.waitFor(`document.querySelector("#job-status") && document.querySelector("#job-status").textContent === "done" && !!document.querySelector("#dataset-link")`, 60*time.Second)
+	browser.Screenshot(t, ctx, "job-done")
+	if got := p.text("#job-result li"); !strings.HasPrefix(got, "19\u202f352 orders imported into dataset \"refills\"") {
+		t.Errorf("job result = %q", got)
+	}
+	if !p.eval(`document.querySelector("#job-progress").value === 100`) {
+		t.Error("the progress bar of a finished job is not at 100")
+	}
+	p.do(chromedp.Click(chromedp.CSS("#dataset-link")), chromedp.WaitVisible(chromedp.CSS("dl.facts")))
+	p.waitFor(`(() => { const i = document.querySelector("#per-month ~ div img, .chart-with-table img"); return i && i.complete && i.naturalWidth > 0 })()`, 10*time.Second)
+	browser.Screenshot(t, ctx, "dataset")
+	if got := p.text("h1"); got != "Dataset refills" {
+		t.Errorf("dataset page heading = %q", got)
+	}
+	// 2023-11 … 2026-10 is 36 months of the demo business.
+	if !p.eval(`document.querySelectorAll(".chart-with-table tbody tr").length === 36`) {
+		t.Error("the orders-per-month table does not have 36 months")
+	}
+
+	p.upload(broken, "broken")
+	p.waitFor(`document.querySelector("#job-status") && document.querySelector("#job-status").textContent === "failed" && !!document.querySelector("#problems")`, 30*time.Second)
+	browser.Screenshot(t, ctx, "job-rejected")
+	body := p.text("#problems")
+	for _, want := range []string{"broken.csv:3:2", `"2024-02-30" is not a real calendar day`, "broken.csv:4:3", `"ten" is not a number`} {
+		if !strings.Contains(body, want) {
+			t.Errorf("problems panel lacks %q:\n%s", want, body)
+		}
+	}
+
+	// A viewer is refused the upload page.
+	p.do(chromedp.Click(chromedp.CSS("header .who button")), chromedp.WaitVisible(chromedp.CSS("#name")))
+	p.signIn("test-viewer")
+	if p.eval(`!!document.querySelector('nav a[href="/uploads/new"]')`) {
+		t.Error("a viewer's navigation offers Upload")
+	}
+	p.do(chromedp.Navigate(p.url+"/uploads/new"), chromedp.WaitVisible(chromedp.CSS("h1")))
+	browser.Screenshot(t, ctx, "viewer-refused")
+	if got := p.text("h1"); got != "Not allowed" {
+		t.Errorf("viewer on /uploads/new sees %q, want Not allowed", got)
+	}
+}
