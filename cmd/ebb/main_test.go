@@ -5,9 +5,11 @@ import (
 	"context"
 	"net"
 	"net/http"
+	"net/url"
 	"os"
 	"path/filepath"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -191,9 +193,12 @@ func TestDemoCommand(t *testing.T) {
 }
 
 // TestServeDemo starts the real server with --demo twice on the same
-// database: the first start loads the demo, the second changes nothing.
+// database: the first start loads the demo, the second changes nothing;
+// both print the setup link (no administrator yet) and the demo users'
+// passwords, which sign in.
 func TestServeDemo(t *testing.T) {
 	db := filepath.Join(t.TempDir(), "serve.db")
+	var passwords []string
 	for i, want := range []string{"loaded the demo dataset", "already loaded"} {
 		ln, err := net.Listen("tcp", "127.0.0.1:0")
 		if err != nil {
@@ -202,7 +207,7 @@ func TestServeDemo(t *testing.T) {
 		addr := ln.Addr().String()
 		ln.Close()
 		ctx, cancel := context.WithCancel(context.Background())
-		var out, errb bytes.Buffer
+		var out, errb syncBuffer
 		done := make(chan error, 1)
 		go func() {
 			done <- run(ctx, []string{"serve", "--demo", "--addr", addr, "--db", db}, func(string) string { return "" }, &out, &errb)
@@ -215,6 +220,19 @@ func TestServeDemo(t *testing.T) {
 				break
 			}
 		}
+		if !up {
+			cancel()
+			<-done
+			t.Fatalf("start %d: /healthz never answered 200\n%s", i+1, errb.String())
+		}
+		text := out.String()
+		pw := between(text, "sign in as demo-analyst with password ", "\n")
+		passwords = append(passwords, pw)
+		client := &http.Client{CheckRedirect: func(*http.Request, []*http.Request) error { return http.ErrUseLastResponse }}
+		res, err := client.PostForm("http://"+addr+"/signin", url.Values{"name": {"demo-analyst"}, "password": {pw}})
+		if err != nil || res.StatusCode != http.StatusSeeOther {
+			t.Errorf("start %d: demo-analyst cannot sign in with the printed password %q: %v %v", i+1, pw, err, res)
+		}
 		health := runCLI(t, nil, "health", "--addr", addr)
 		cancel()
 		if health.err != nil || health.stdout != "ok\n" {
@@ -223,14 +241,66 @@ func TestServeDemo(t *testing.T) {
 		if err := <-done; err != nil {
 			t.Fatalf("start %d: serve returned %v\n%s", i+1, err, errb.String())
 		}
-		if !up {
-			t.Fatalf("start %d: /healthz never answered 200\n%s", i+1, errb.String())
+		for _, w := range []string{want, "ebb is serving http://" + addr, "no administrator yet: create one at http://" + addr + "/setup/", "sign in as demo-viewer with password "} {
+			if !strings.Contains(text, w) {
+				t.Errorf("start %d: stdout lacks %q:\n%s", i+1, w, text)
+			}
 		}
-		if !strings.Contains(out.String(), want) || !strings.Contains(out.String(), "ebb is serving http://"+addr) {
-			t.Errorf("start %d: stdout = %q, want %q", i+1, out.String(), want)
-		}
+	}
+	if passwords[0] == "" || passwords[0] != passwords[1] {
+		t.Errorf("demo passwords %q, want the same non-empty one at every start", passwords)
 	}
 	if got := counts(t, db); got[0] != 1 || got[1] != 1 {
 		t.Errorf("after two starts: %d datasets, %d versions; want 1 and 1", got[0], got[1])
 	}
+}
+
+func TestServeRefusesBadSettings(t *testing.T) {
+	db := filepath.Join(t.TempDir(), "s.db")
+	tests := []struct {
+		name string
+		env  map[string]string
+		args []string
+		want string
+	}{
+		{"short session key", map[string]string{"EBB_SESSION_KEY": "abcd"}, nil, "session key has 2 bytes; want 32 or 64"},
+		{"non-hex session key", nil, []string{"--session-key", "zz"}, "session key is not hex"},
+		{"bad idle", nil, []string{"--session-idle", "soon"}, "--session-idle"},
+		{"zero upload", nil, []string{"--max-upload", "0"}, "--max-upload"},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			r := runCLI(t, tt.env, append([]string{"serve", "--db", db, "--addr", "127.0.0.1:0"}, tt.args...)...)
+			if r.err == nil || !strings.Contains(r.err.Error(), tt.want) {
+				t.Errorf("err = %v, want it to contain %q", r.err, tt.want)
+			}
+		})
+	}
+}
+
+// syncBuffer is a bytes.Buffer safe for one writer and one reader.
+type syncBuffer struct {
+	mu sync.Mutex
+	b  bytes.Buffer
+}
+
+func (s *syncBuffer) Write(p []byte) (int, error) {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.b.Write(p)
+}
+
+func (s *syncBuffer) String() string {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.b.String()
+}
+
+func between(s, from, to string) string {
+	_, rest, ok := strings.Cut(s, from)
+	if !ok {
+		return ""
+	}
+	v, _, _ := strings.Cut(rest, to)
+	return v
 }
