@@ -146,7 +146,22 @@ func runImport(ctx context.Context, st *store.Store, imp store.Import, req Impor
 	// goroutine through a short queue, so the two cores share the work. The
 	// first write error stops the reader at its next batch.
 	counter := &countingReader{r: req.Orders.R}
-	w := startWriter(ctx, func(ctx context.Context, b ingest.Batch) error { return st.WriteOrders(ctx, imp, b) })
+	// The writer also keeps each order's customer and day, so the version's
+	// figures need no second pass over the rows just written.
+	own := &store.VersionOrders{}
+	w := startWriter(ctx, func(ctx context.Context, b ingest.Batch) error {
+		if err := st.WriteOrders(ctx, imp, b); err != nil {
+			return err
+		}
+		for _, o := range b.Orders {
+			own.Customers = append(own.Customers, o.Customer)
+			own.Days = append(own.Days, int32(o.Day))
+			if o.HasAmount {
+				own.WithAmount++
+			}
+		}
+		return nil
+	})
 	sum, readErr := ingest.ReadOrders(ctx, counter, ingest.OrderOptions{
 		File: req.Orders.Name, Columns: req.Columns, Dates: req.Dates, Location: loc, Today: today,
 		Policy: req.Policy, Keys: keys, Refs: refs, Existing: existing, OnProblem: req.OnProblem, Size: req.Orders.Size,
@@ -177,7 +192,7 @@ func runImport(ctx context.Context, st *store.Store, imp store.Import, req Impor
 	// The figures pages show are computed once, now, and stored with the
 	// version (a failed import takes them with it).
 	progress(97, "counting order days, customers and months")
-	vs, err := st.ComputeVersionStats(ctx, imp.VersionID)
+	vs, err := st.ComputeVersionStatsWith(ctx, imp.VersionID, own)
 	if err != nil {
 		return res, err
 	}

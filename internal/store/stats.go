@@ -67,6 +67,21 @@ func (st VersionStats) SingleDayShare() float64 {
 // each customer's order days, which gives distinct order days, first order
 // days and single-day customers without a map.
 func (s *Store) ComputeVersionStats(ctx context.Context, versionID int64) (VersionStats, error) {
+	return s.ComputeVersionStatsWith(ctx, versionID, nil)
+}
+
+// VersionOrders are a version's own orders as its import wrote them:
+// parallel customer ids and order days, and how many had an amount.
+type VersionOrders struct {
+	Customers  []int32
+	Days       []int32
+	WithAmount int
+}
+
+// ComputeVersionStatsWith is ComputeVersionStats with the version's own
+// orders given from memory (own, when not nil) instead of read back: the
+// import that just wrote them saves a second pass over every row.
+func (s *Store) ComputeVersionStatsWith(ctx context.Context, versionID int64, own *VersionOrders) (VersionStats, error) {
 	var st VersionStats
 	conn, err := s.r.Conn(ctx)
 	if err != nil {
@@ -75,7 +90,7 @@ func (s *Store) ComputeVersionStats(ctx context.Context, versionID int64) (Versi
 	defer conn.Close()
 	err = conn.Raw(func(dc any) error {
 		var err error
-		st, err = computeVersionStats(ctx, dc, versionID)
+		st, err = computeVersionStats(ctx, dc, versionID, own)
 		return err
 	})
 	if err != nil {
@@ -87,7 +102,7 @@ func (s *Store) ComputeVersionStats(ctx context.Context, versionID int64) (Versi
 	return st, nil
 }
 
-func computeVersionStats(ctx context.Context, dc any, versionID int64) (st VersionStats, err error) {
+func computeVersionStats(ctx context.Context, dc any, versionID int64, own *VersionOrders) (st VersionStats, err error) {
 	beginner, ok1 := dc.(driver.ConnBeginTx)
 	q, ok2 := dc.(driver.ConnPrepareContext)
 	if !ok1 || !ok2 {
@@ -170,6 +185,17 @@ func computeVersionStats(ctx context.Context, dc any, versionID int64) (st Versi
 	// SQLite stepping through the rows.
 	var custs, days []int32
 	for _, v := range versions {
+		if own != nil && v == versionID {
+			for _, c := range own.Customers {
+				if c < 0 || int64(c) > maxID {
+					return st, fmt.Errorf("an order's customer id %d is not a stored customer (ids 0 to %d)", c, maxID)
+				}
+			}
+			custs = append(custs, own.Customers...)
+			days = append(days, own.Days...)
+			st.WithAmount += own.WithAmount
+			continue
+		}
 		err = rawQuery(ctx, q, `SELECT customer_id, day, amount IS NOT NULL FROM orders WHERE id BETWEEN ?1 << 32 AND (?1 << 32) + 4294967295`,
 			[]any{v}, func(row []driver.Value) error {
 				c, ok1 := row[0].(int64)
