@@ -30,3 +30,30 @@
   }
   setTimeout(poll, 300);
 })();
+
+// The churn-window page: typing an X shows that X's sensitivity row at
+// once, read from the table already on the page (no request).
+(function () {
+  const live = document.getElementById("live-lookup");
+  if (!live) return;
+  const body = live.querySelector("tbody");
+  function show(e) {
+    const n = parseInt(e.target.value, 10);
+    const row = document.getElementById("x-" + n);
+    if (!row) {
+      live.hidden = true;
+      return;
+    }
+    const copy = row.cloneNode(true);
+    copy.removeAttribute("id");
+    body.replaceChildren(copy);
+    live.hidden = false;
+  }
+  for (const id of ["save-days", "x"]) {
+    const input = document.getElementById(id);
+    if (input) {
+      input.addEventListener("input", show);
+      if (input.value) show({ target: input });
+    }
+  }
+})();

@@ -46,14 +46,20 @@ func (p *page) eval(js string) bool {
 	return v
 }
 
-// waitFor polls a JavaScript condition until it holds.
+// waitFor polls a JavaScript condition until it holds. Errors while the
+// page reloads (the job page reloads itself when the job ends) count as
+// "not yet".
 func (p *page) waitFor(js string, within time.Duration) {
 	p.t.Helper()
 	deadline := time.Now().Add(within)
-	for !p.eval(js) {
+	for {
+		ok, err := chromedp.Run(p.ctx, chromedp.Evaluate[bool]("!!("+js+")"))
+		if err == nil && ok {
+			return
+		}
 		if time.Now().After(deadline) {
 			browser.Screenshot(p.t, p.ctx, "timeout")
-			p.t.Fatalf("waited %v for %s", within, js)
+			p.t.Fatalf("waited %v for %s (last error: %v)", within, js, err)
 		}
 		time.Sleep(100 * time.Millisecond)
 	}
@@ -147,5 +153,46 @@ func TestBrowserImportFlow(t *testing.T) {
 	browser.Screenshot(t, ctx, "viewer-refused")
 	if got := p.text("h1"); got != "Not allowed" {
 		t.Errorf("viewer on /uploads/new sees %q, want Not allowed", got)
+	}
+}
+
+// TestBrowserWindow derives the churn window of the demo data, types a
+// rounded X and sees its sensitivity row at once, and saves the definition.
+func TestBrowserWindow(t *testing.T) {
+	e := newEnv(t, true)
+	ctx := browser.New(t)
+	ctx, cancel := context.WithTimeout(ctx, 90*time.Second)
+	defer cancel()
+	p := &page{t: t, ctx: ctx, url: e.srv.URL}
+	p.signIn("test-analyst")
+	p.do(chromedp.Navigate(p.url+"/datasets"), chromedp.WaitVisible(chromedp.CSS("table")),
+		chromedp.Click(chromedp.CSS("tbody th a")), chromedp.WaitVisible(chromedp.CSS("#window-link")),
+		chromedp.Click(chromedp.CSS("#window-link")), chromedp.WaitVisible(chromedp.CSS("#derive button")),
+		chromedp.Click(chromedp.CSS("#derive button")), chromedp.WaitVisible(chromedp.CSS("#job-progress")))
+	p.waitFor(`document.querySelector("#job-status").textContent === "done" && document.querySelector("#result-link")`, 60*time.Second)
+	p.do(chromedp.Click(chromedp.CSS("#result-link")), chromedp.WaitVisible(chromedp.CSS("#methods")))
+	p.waitFor(`Array.from(document.querySelectorAll("main img")).every(i => i.complete && i.naturalWidth > 0)`, 15*time.Second)
+	browser.Screenshot(t, ctx, "window")
+	for _, m := range []string{"mean-gap", "pooled-gap", "censored"} {
+		if got := p.text("#method-" + m + " .x-days"); got == "" {
+			t.Errorf("no X shown for %s", m)
+		}
+	}
+	// Type a rounded X into the save form: its row appears without a request.
+	p.eval(`(() => { document.querySelector("#save-days").value = ""; return true })()`)
+	p.do(chromedp.SendKeys(chromedp.CSS("#save-days"), "90"))
+	p.waitFor(`!document.querySelector("#live-lookup").hidden`, 5*time.Second)
+	if got := p.text("#live-lookup tbody th"); got != "90" {
+		t.Errorf("live lookup shows X %q, want 90", got)
+	}
+	p.do(chromedp.SendKeys(chromedp.CSS("#rationale"), "Rounded to a quarter of a year."),
+		chromedp.Click(chromedp.CSS("#save button[type=submit]")),
+		chromedp.WaitVisible(chromedp.CSS("#definitions")))
+	browser.Screenshot(t, ctx, "window-saved")
+	if got := p.text("#definitions tbody tr td:nth-of-type(2)"); got != "90" {
+		t.Errorf("saved X = %q, want 90", got)
+	}
+	if got := p.text(".flash"); !strings.Contains(got, "90 silent days") {
+		t.Errorf("flash = %q", got)
 	}
 }

@@ -65,6 +65,13 @@ func (s *Server) handleJobShow(w http.ResponseWriter, r *http.Request) {
 	if j.Kind == analysis.KindImport && len(j.Result) > 0 {
 		importResult(&v, j)
 	}
+	if j.Kind == analysis.KindWindow && j.Status == jobs.Done {
+		var res analysis.WindowJobResult
+		if json.Unmarshal(j.Result, &res) == nil {
+			v.Summary = []string{"The churn window was derived by every method, with its sensitivity table."}
+			v.ResultURL, v.ResultLabel = fmt.Sprintf("/datasets/%d/window", res.DatasetID), "Open the churn window"
+		}
+	}
 	s.render(w, r, http.StatusOK, views.Job(v))
 }
 

@@ -19,6 +19,7 @@ import (
 	"ebb/demo"
 	"ebb/internal/analysis"
 	"ebb/internal/auth"
+	"ebb/internal/history"
 	"ebb/internal/jobs"
 	"ebb/internal/store"
 )
@@ -69,6 +70,7 @@ func newEnv(t *testing.T, withDemo bool) *testEnv {
 	}
 	e.runner = jobs.New(st, jobs.Options{Workers: 1, Now: c.now, Log: log, PersistEvery: 50 * time.Millisecond})
 	e.runner.Register(analysis.KindImport, analysis.ImportJob(st, c.now))
+	e.runner.Register(analysis.KindWindow, analysis.WindowJob(st, history.NewCache(2), c.now))
 	if _, err := e.runner.Start(ctx); err != nil {
 		t.Fatal(err)
 	}

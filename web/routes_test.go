@@ -32,6 +32,10 @@ var access = map[string]auth.Role{
 	"POST /datasets/{id}/data-through":        auth.Analyst,
 	"GET /datasets/{id}/orders-per-month.svg": auth.Analyst,
 	"GET /datasets/{id}/orders-per-month.png": auth.Analyst,
+	"GET /datasets/{id}/window":               auth.Analyst,
+	"POST /datasets/{id}/window":              auth.Analyst,
+	"POST /datasets/{id}/definitions":         auth.Analyst,
+	"GET /datasets/{id}/window/{chart}":       auth.Analyst,
 	"GET /uploads/new":                        auth.Analyst,
 	"POST /uploads":                           auth.Analyst,
 	"GET /uploads/{token}":                    auth.Analyst,
@@ -91,7 +95,7 @@ func TestRouteAccess(t *testing.T) {
 	}
 	// Ids that do not exist: allowed requests get 404, denied ones 403 or a
 	// redirect, and nothing is changed on the way.
-	fill := strings.NewReplacer("{id}", "999", "{token}", "0000", "*", "ebb.css")
+	fill := strings.NewReplacer("{id}", "999", "{token}", "0000", "{chart}", "gaps.svg", "*", "ebb.css")
 	for _, route := range routes(t, e.server) {
 		method, pattern, _ := strings.Cut(route, " ")
 		if route == "POST /signout" {

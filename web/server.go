@@ -34,6 +34,9 @@ type Store interface {
 	Setting(ctx context.Context, key string) (string, error)
 	SetSetting(ctx context.Context, key, value string) error
 	CountUsers(ctx context.Context) (int, error)
+	LatestWindowRun(ctx context.Context, datasetID int64) (store.WindowRun, error)
+	Definitions(ctx context.Context, datasetID int64) ([]store.Definition, error)
+	InsertDefinition(ctx context.Context, d store.Definition) (store.Definition, error)
 }
 
 // Jobs is what the handlers need from the job runner.
@@ -115,6 +118,10 @@ func (s *Server) routes() chi.Router {
 		r.Post("/datasets/{id}/data-through", s.handleDataThrough)
 		r.Get("/datasets/{id}/orders-per-month.svg", s.handleMonthlyChart)
 		r.Get("/datasets/{id}/orders-per-month.png", s.handleMonthlyChart)
+		r.Get("/datasets/{id}/window", s.handleWindowShow)
+		r.Post("/datasets/{id}/window", s.handleWindowDerive)
+		r.Post("/datasets/{id}/definitions", s.handleDefinitionSave)
+		r.Get("/datasets/{id}/window/{chart}", s.handleWindowChart)
 		r.Get("/uploads/new", s.handleUploadForm)
 		r.Post("/uploads", s.handleUpload)
 		r.Get("/uploads/{token}", s.handleMappingForm)

@@ -3,6 +3,8 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/json"
+	"math"
 	"net"
 	"net/http"
 	"net/url"
@@ -303,4 +305,58 @@ func between(s, from, to string) string {
 	}
 	v, _, _ := strings.Cut(rest, to)
 	return v
+}
+
+func TestWindowCommand(t *testing.T) {
+	dir := t.TempDir()
+	db := filepath.Join(dir, "w.db")
+	if r := runCLI(t, nil, "demo", "--out", dir); r.err != nil {
+		t.Fatal(r.err)
+	}
+	if r := runCLI(t, nil, "import", "--db", db, "--dataset", "demo", filepath.Join(dir, "orders.csv")); r.err != nil {
+		t.Fatal(r.err)
+	}
+	r := runCLI(t, nil, "window", "--db", db, "--dataset", "demo", "--method", "censored", "--json")
+	if r.err != nil {
+		t.Fatalf("window: %v\n%s", r.err, r.stdout)
+	}
+	var out struct {
+		Days                 int     `json:"days"`
+		Value                float64 `json:"value"`
+		Method               string  `json:"method"`
+		Percentile           float64 `json:"percentile"`
+		CustomersUsed        int     `json:"customers_used"`
+		SingleOrderCustomers int     `json:"single_order_customers"`
+		Sensitivity          []struct {
+			Days                  int     `json:"days"`
+			LapsedShare           float64 `json:"lapsed_share"`
+			ReturnAfterLapseShare float64 `json:"return_after_lapse_share"`
+		} `json:"sensitivity"`
+	}
+	if err := json.Unmarshal([]byte(r.stdout), &out); err != nil {
+		t.Fatalf("--json output is not JSON: %v\n%s", err, r.stdout)
+	}
+	if out.Method != "censored" || out.Percentile != 90 || out.Days != int(math.Ceil(out.Value)) || out.Days < 1 ||
+		out.CustomersUsed == 0 || out.SingleOrderCustomers == 0 {
+		t.Errorf("window = %+v", out)
+	}
+	if len(out.Sensitivity) != 365 || out.Sensitivity[0].Days != 1 || out.Sensitivity[364].Days != 365 {
+		t.Fatalf("sensitivity has %d rows", len(out.Sensitivity))
+	}
+	for i := 1; i < len(out.Sensitivity); i++ {
+		// A longer window can only lapse fewer customers today.
+		if out.Sensitivity[i].LapsedShare > out.Sensitivity[i-1].LapsedShare {
+			t.Fatalf("lapsed share rises from X=%d to X=%d", i, i+1)
+		}
+	}
+	r = runCLI(t, nil, "window", "--db", db, "--dataset", "demo", "--save", "--days", "90", "--note", "a quarter of a year")
+	if r.err != nil || !strings.Contains(r.stdout, "saved churn definition 1: X = 90 days, H = 90 days") {
+		t.Errorf("window --save: %v\n%s", r.err, r.stdout)
+	}
+	if r := runCLI(t, nil, "window", "--db", db, "--dataset", "demo", "--days", "90"); r.err == nil || !strings.Contains(r.err.Error(), "need --save") {
+		t.Errorf("--days without --save: %v", r.err)
+	}
+	if r := runCLI(t, nil, "window", "--db", db, "--dataset", "nope"); r.err == nil || !strings.Contains(r.err.Error(), `there is no dataset "nope"`) {
+		t.Errorf("unknown dataset: %v", r.err)
+	}
 }

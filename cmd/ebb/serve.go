@@ -17,6 +17,7 @@ import (
 	"ebb/demo"
 	"ebb/internal/analysis"
 	"ebb/internal/auth"
+	"ebb/internal/history"
 	"ebb/internal/jobs"
 	"ebb/internal/problem"
 	"ebb/internal/store"
@@ -137,7 +138,9 @@ func serve(ctx context.Context, e env, o serveOptions) error {
 	accounts := &auth.Accounts{Store: st, Hasher: auth.Hasher{}, Throttle: auth.NewThrottle(now), Now: now}
 
 	runner := jobs.New(st, jobs.Options{Workers: o.workers, Now: now, Log: log})
+	histories := history.NewCache(2)
 	runner.Register(analysis.KindImport, analysis.ImportJob(st, now))
+	runner.Register(analysis.KindWindow, analysis.WindowJob(st, histories, now))
 	if n, err := runner.Start(ctx); err != nil {
 		return err
 	} else if n > 0 {

@@ -1,7 +1,6 @@
 package charts
 
 import (
-	"bytes"
 	"fmt"
 	"image/color"
 	"io"
@@ -14,8 +13,6 @@ import (
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
-	"gonum.org/v1/plot/vg/vgsvg"
 )
 
 // Default size of a chart: 576×240 points, which is 768×320 CSS pixels for
@@ -107,17 +104,7 @@ func (b Bars) SVG(w io.Writer) error {
 		return err
 	}
 	width, height := b.size()
-	c := vgsvg.New(width, height)
-	p.Draw(frame(draw.New(c)))
-	var buf bytes.Buffer
-	if _, err := c.WriteTo(&buf); err != nil {
-		return fmt.Errorf("write bar chart %q as svg: %w", b.Title, err)
-	}
-	out := bytes.ReplaceAll(buf.Bytes(), []byte("font-family:Liberation Sans;"), []byte(svgFontFamily))
-	if _, err := w.Write(out); err != nil {
-		return fmt.Errorf("write bar chart %q as svg: %w", b.Title, err)
-	}
-	return nil
+	return writeSVG(w, p, width, height, b.what)
 }
 
 const svgFontFamily = "font-family:'Liberation Sans',Arial,Helvetica,sans-serif;"
@@ -130,13 +117,10 @@ func (b Bars) PNG(w io.Writer) error {
 		return err
 	}
 	width, height := b.size()
-	c := vgimg.NewWith(vgimg.UseWH(width, height), vgimg.UseDPI(pngDPI))
-	p.Draw(frame(draw.New(c)))
-	if _, err := (vgimg.PngCanvas{Canvas: c}).WriteTo(w); err != nil {
-		return fmt.Errorf("write bar chart %q as png: %w", b.Title, err)
-	}
-	return nil
+	return writePNG(w, p, width, height, b.what)
 }
+
+func (b Bars) what() string { return fmt.Sprintf("bar chart %q", b.Title) }
 
 // frame leaves a margin of a few points inside the canvas edge, so that the
 // last bar and the top tick label are not cut.
@@ -144,16 +128,7 @@ func frame(c draw.Canvas) draw.Canvas {
 	return draw.Crop(c, 4, -12, 2, -6)
 }
 
-func (b Bars) size() (w, h vg.Length) {
-	w, h = b.Width, b.Height
-	if w <= 0 {
-		w = DefaultWidth
-	}
-	if h <= 0 {
-		h = DefaultHeight
-	}
-	return w, h
-}
+func (b Bars) size() (w, h vg.Length) { return chartSize(b.Width, b.Height) }
 
 // plot builds the chart: category i's bar is centred at x = i, from y = 0
 // to its value.

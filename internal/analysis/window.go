@@ -1,0 +1,214 @@
+package analysis
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"strings"
+	"time"
+
+	"ebb/internal/gaps"
+	"ebb/internal/history"
+	"ebb/internal/jobs"
+	"ebb/internal/problem"
+	"ebb/internal/store"
+)
+
+// KindWindow is the job kind of a churn-window derivation.
+const KindWindow = "window"
+
+// WindowReport is everything a derivation found, stored as one document.
+type WindowReport struct {
+	DatasetID   int64         `json:"dataset_id"`
+	Dataset     string        `json:"dataset"`
+	VersionID   int64         `json:"version_id"`
+	Version     int           `json:"version"`
+	DataThrough string        `json:"data_through"`
+	FirstDay    string        `json:"first_day"`
+	Options     gaps.Options  `json:"options"`
+	Windows     []gaps.Window `json:"windows"`
+	SecondOrder []gaps.Window `json:"second_order"`
+	Figures     gaps.Figures  `json:"figures"`
+	Sensitivity []gaps.Row    `json:"sensitivity"`
+	// Note says when the look-back reaches before the first order.
+	Note string `json:"note,omitempty"`
+}
+
+// Window returns the report's window of one method.
+func (r *WindowReport) Window(m gaps.Method) (gaps.Window, bool) {
+	for _, w := range r.Windows {
+		if w.Method == m {
+			return w, true
+		}
+	}
+	return gaps.Window{}, false
+}
+
+// Row returns the sensitivity row of x days (1 ≤ x ≤ gaps.MaxX).
+func (r *WindowReport) Row(x int) (gaps.Row, bool) {
+	if x < 1 || x > len(r.Sensitivity) {
+		return gaps.Row{}, false
+	}
+	return r.Sensitivity[x-1], true
+}
+
+// WindowParams are a window job's parameters.
+type WindowParams struct {
+	DatasetID int64        `json:"dataset_id"`
+	Options   gaps.Options `json:"options"`
+}
+
+// Histories is the shared cache of loaded order histories.
+type Histories = history.Cache
+
+// loadHistory returns the dataset's current version as a history, through
+// the cache, with the dataset's current data_through.
+func loadHistory(ctx context.Context, st *store.Store, cache *Histories, d store.Dataset) (*history.History, error) {
+	h, err := cache.Get(ctx, d.Version, func(ctx context.Context) (*history.History, error) {
+		return st.LoadHistory(ctx, d.Version)
+	})
+	if err != nil {
+		return nil, err
+	}
+	if h.DataThrough() != d.DataThrough() {
+		h = h.WithDataThrough(d.DataThrough())
+	}
+	return h, nil
+}
+
+// DeriveWindow runs every window method and the sensitivity table on the
+// dataset's current version and stores the report; it returns the run id.
+func DeriveWindow(ctx context.Context, st *store.Store, cache *Histories, datasetID int64, opt gaps.Options, by string, now time.Time,
+	progress func(pct float64, note string)) (int64, *WindowReport, error) {
+	if progress == nil {
+		progress = func(float64, string) {}
+	}
+	d, err := st.DatasetByID(ctx, datasetID)
+	if err != nil {
+		return 0, nil, err
+	}
+	progress(5, "loading the order history")
+	h, err := loadHistory(ctx, st, cache, d)
+	if err != nil {
+		return 0, nil, err
+	}
+	opt = opt.Resolved()
+	if opt.Seed == 0 {
+		opt.Seed = uint64(d.ID)
+	}
+	rep := &WindowReport{DatasetID: d.ID, Dataset: d.Name, VersionID: d.Version, Version: d.Seq,
+		DataThrough: h.DataThrough().String(), FirstDay: h.First().String()}
+	progress(25, "deriving the window by each method")
+	if rep.Windows, err = gaps.Derive(h, opt); err != nil {
+		return 0, nil, err
+	}
+	if rep.SecondOrder, err = gaps.DeriveSecondOrder(h, opt); err != nil {
+		return 0, nil, err
+	}
+	if err := ctx.Err(); err != nil {
+		return 0, nil, err
+	}
+	progress(60, "computing the sensitivity table")
+	rep.Options = opt
+	lookback := opt.LookbackDays
+	rep.Sensitivity = gaps.Sensitivity(h, lookback, opt.FollowUpDays)
+	if rep.Figures, err = gaps.Chart(h, opt); err != nil {
+		return 0, nil, err
+	}
+	if span := int(h.DataThrough() - h.First()); span < lookback {
+		rep.Note = fmt.Sprintf("The look-back of %d days reaches before the first order (%s): the data cover only %d days.", lookback, h.First(), span+1)
+	}
+	progress(90, "saving")
+	optJSON, _ := json.Marshal(opt)
+	repJSON, err := json.Marshal(rep)
+	if err != nil {
+		return 0, nil, fmt.Errorf("encode window report: %w", err)
+	}
+	id, err := st.InsertWindowRun(ctx, store.WindowRun{DatasetID: d.ID, VersionID: d.Version, DataThrough: rep.DataThrough,
+		Options: optJSON, Report: repJSON, CreatedBy: by, CreatedAt: now})
+	if err != nil {
+		return 0, nil, err
+	}
+	progress(100, "done")
+	return id, rep, nil
+}
+
+// WindowJobResult is a window job's result.
+type WindowJobResult struct {
+	DatasetID int64 `json:"dataset_id"`
+	RunID     int64 `json:"run_id"`
+}
+
+// WindowJob returns the job function that derives a dataset's window.
+func WindowJob(st *store.Store, cache *Histories, now func() time.Time) jobs.Func {
+	return func(ctx context.Context, j jobs.Job, p *jobs.Progress) ([]byte, error) {
+		var params WindowParams
+		if err := json.Unmarshal(j.Params, &params); err != nil {
+			return nil, fmt.Errorf("window job %d: params: %w", j.ID, err)
+		}
+		id, _, err := DeriveWindow(ctx, st, cache, params.DatasetID, params.Options, j.CreatedBy, now(), p.Set)
+		if err != nil {
+			return nil, err
+		}
+		return json.Marshal(WindowJobResult{DatasetID: params.DatasetID, RunID: id})
+	}
+}
+
+// LoadWindowReport returns a stored derivation's report.
+func LoadWindowReport(run store.WindowRun) (*WindowReport, error) {
+	var rep WindowReport
+	if err := json.Unmarshal(run.Report, &rep); err != nil {
+		return nil, fmt.Errorf("window run %d: %w", run.ID, err)
+	}
+	return &rep, nil
+}
+
+// DefinitionInput is what an analyst saves.
+type DefinitionInput struct {
+	WindowDays   int
+	HorizonDays  int // 0 = X
+	Method       string
+	Percentile   float64
+	LookbackDays int
+	DerivedDays  int
+	RunID        int64
+	Rationale    string
+}
+
+// DefinitionStore is what SaveDefinition needs from storage.
+type DefinitionStore interface {
+	DatasetByID(ctx context.Context, id int64) (store.Dataset, error)
+	InsertDefinition(ctx context.Context, d store.Definition) (store.Definition, error)
+}
+
+// SaveDefinition validates and saves a churn definition for the dataset's
+// current version; it becomes the current definition.
+func SaveDefinition(ctx context.Context, st DefinitionStore, datasetID int64, in DefinitionInput, by string, now time.Time) (store.Definition, error) {
+	d, err := st.DatasetByID(ctx, datasetID)
+	if err != nil {
+		return store.Definition{}, err
+	}
+	if in.HorizonDays == 0 {
+		in.HorizonDays = in.WindowDays
+	}
+	in.Rationale = strings.TrimSpace(in.Rationale)
+	switch {
+	case in.WindowDays < 1 || in.WindowDays > 3650:
+		return store.Definition{}, problem.New(problem.Invalid, "the churn window X must be 1 to 3650 days")
+	case in.HorizonDays < 1 || in.HorizonDays > 3650:
+		return store.Definition{}, problem.New(problem.Invalid, "the horizon H must be 1 to 3650 days")
+	case in.Rationale == "":
+		return store.Definition{}, problem.New(problem.Invalid, "say in a sentence why this window: the rationale is what you will show when asked")
+	case len(in.Rationale) > 2000:
+		return store.Definition{}, problem.New(problem.Invalid, "the rationale may have at most 2000 characters")
+	}
+	if _, err := gaps.ParseMethod(in.Method); err != nil && in.Method != "" {
+		return store.Definition{}, err
+	}
+	if in.Method == "" {
+		in.Method = "chosen"
+	}
+	return st.InsertDefinition(ctx, store.Definition{DatasetID: d.ID, WindowDays: in.WindowDays, HorizonDays: in.HorizonDays,
+		Method: in.Method, Percentile: in.Percentile, LookbackDays: in.LookbackDays, DerivedDays: in.DerivedDays, RunID: in.RunID,
+		VersionID: d.Version, Rationale: in.Rationale, CreatedBy: by, CreatedAt: now})
+}

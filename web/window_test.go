@@ -1,0 +1,65 @@
+package web
+
+import (
+	"context"
+	"net/http"
+	"net/url"
+	"strings"
+	"testing"
+
+	"ebb/internal/jobs"
+)
+
+func TestWindowPageDeriveAndSave(t *testing.T) {
+	e := newEnv(t, true)
+	c := e.signIn("analyst")
+	d, _ := e.st.DatasetByName(context.Background(), "demo")
+	path := "/datasets/" + itoa(d.ID) + "/window"
+	if res, body := e.get(c, path); res.StatusCode != http.StatusOK || !strings.Contains(body, "Derive the window") {
+		t.Fatalf("window page before a derivation: %d", res.StatusCode)
+	}
+	if res, body := e.postBody(c, path, url.Values{"percentile": {"0"}, "lookback": {"365"}}); res.StatusCode != http.StatusUnprocessableEntity || !strings.Contains(body, "above 0 and at most 100") {
+		t.Errorf("percentile 0: %d", res.StatusCode)
+	}
+	res := e.post(c, path, url.Values{"percentile": {"90"}, "lookback": {"365"}})
+	if res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("derive: %d", res.StatusCode)
+	}
+	if j := e.waitJob(res.Header.Get("Location")); j.Status != jobs.Done {
+		t.Fatalf("window job: %s %s", j.Status, j.Error)
+	}
+	res, body := e.get(c, path+"?x=90")
+	if res.StatusCode != http.StatusOK {
+		t.Fatalf("window page: %d", res.StatusCode)
+	}
+	for _, want := range []string{`id="method-mean-gap"`, `id="method-censored"`, `id="x-365"`, `<table class="compact" id="lookup">`, "gaps.svg", "repurchase.svg", "tradeoff.svg"} {
+		if !strings.Contains(body, want) {
+			t.Errorf("window page lacks %q", want)
+		}
+	}
+	for _, chart := range []string{"gaps.svg", "gaps.svg?log=1", "repurchase.svg", "tradeoff.svg", "gaps.png", "tradeoff.png"} {
+		res, b := e.get(c, path+"/"+chart)
+		if res.StatusCode != http.StatusOK || (strings.Contains(chart, ".svg") && !strings.Contains(b, "<svg")) {
+			t.Errorf("chart %s: %d", chart, res.StatusCode)
+		}
+	}
+	if res, _ := e.get(c, path+"/pie.svg"); res.StatusCode != http.StatusNotFound {
+		t.Errorf("unknown chart: %d", res.StatusCode)
+	}
+	form := url.Values{"days": {"90"}, "horizon": {""}, "method": {"censored"}, "rationale": {""}, "run": {"1"}}
+	if res, body := e.postBody(c, "/datasets/"+itoa(d.ID)+"/definitions", form); res.StatusCode != http.StatusUnprocessableEntity || !strings.Contains(body, "say in a sentence why") {
+		t.Errorf("save without a rationale: %d", res.StatusCode)
+	}
+	form.Set("rationale", "Rounded to a quarter; the censoring-aware band covers it.")
+	if res := e.post(c, "/datasets/"+itoa(d.ID)+"/definitions", form); res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("save: %d", res.StatusCode)
+	}
+	def, err := e.st.CurrentDefinition(context.Background(), d.ID)
+	if err != nil || def.WindowDays != 90 || def.HorizonDays != 90 || def.Method != "censored" || def.Percentile != 90 || def.LookbackDays != 365 || def.RunID != 1 || def.DerivedDays == 0 {
+		t.Errorf("saved definition = %+v, %v", def, err)
+	}
+	_, body = e.get(c, path)
+	if !strings.Contains(body, "Saved: a customer counts as lapsed after 90 silent days.") || !strings.Contains(body, `<span class="tag">current</span>`) {
+		t.Error("the saved definition is not shown as current")
+	}
+}
