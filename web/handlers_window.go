@@ -73,6 +73,14 @@ func (s *Server) windowView(w http.ResponseWriter, r *http.Request, id int64) (v
 			Horizon: views.Count(def.HorizonDays), Method: def.Method, Rationale: def.Rationale, By: def.CreatedBy,
 			At: def.CreatedAt.UTC().Format("2006-01-02 15:04 UTC"), Current: i == 0})
 	}
+	attrs, err := s.store.AttributeNames(ctx, d.ID)
+	if err != nil {
+		return v, err
+	}
+	v.SplitOptions = []views.Option{{Value: "", Label: "(no split)"}}
+	for _, a := range attrs {
+		v.SplitOptions = append(v.SplitOptions, views.Option{Value: a, Label: a})
+	}
 	run, err := s.store.LatestWindowRun(ctx, d.ID)
 	if problem.Is(err, problem.NotFound) {
 		return v, nil
@@ -109,6 +117,27 @@ func (s *Server) windowView(w http.ResponseWriter, r *http.Request, id int64) (v
 		if row.Days == x {
 			look := sr
 			v.Lookup = &look
+		}
+	}
+	if sp := rep.Split; sp != nil {
+		at := x
+		if at < 1 || at > len(sp.Cells) {
+			at, _ = strconv.Atoi(v.SaveDays)
+		}
+		if at >= 1 && at <= len(sp.Cells) {
+			for i := range v.SplitOptions {
+				v.SplitOptions[i].Selected = v.SplitOptions[i].Value == sp.Attribute
+			}
+			v.SplitTitle = fmt.Sprintf("By %s, at X = %d days", sp.Attribute, at)
+			for l, name := range sp.Levels {
+				c := sp.Cells[at-1][1+l]
+				wait := "—"
+				if c.Returned > 0 {
+					wait = strconv.FormatFloat(c.MedianExtraWait, 'f', -1, 64) + " d"
+				}
+				v.SplitRows = append(v.SplitRows, views.SplitRow{Level: name, Customers: views.Count(sp.Customers[l]),
+					Lapsed: views.Percent(c.LapsedShare()), Returned: shareOf(c), Episodes: views.Count(c.Episodes), MedianWait: wait})
+			}
 		}
 	}
 	for _, b := range gapBuckets(rep.Figures.GapCounts) {
@@ -191,7 +220,7 @@ func (s *Server) handleWindowDerive(w http.ResponseWriter, r *http.Request) {
 		s.fail(w, r, err)
 		return
 	}
-	body, _ := json.Marshal(analysis.WindowParams{DatasetID: id, Options: opt})
+	body, _ := json.Marshal(analysis.WindowParams{DatasetID: id, Options: opt, SplitBy: r.PostFormValue("split")})
 	jid, err := s.jobs.Submit(r.Context(), analysis.KindWindow, id, body, u.Name)
 	if err != nil {
 		s.fail(w, r, err)

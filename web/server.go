@@ -37,6 +37,7 @@ type Store interface {
 	LatestWindowRun(ctx context.Context, datasetID int64) (store.WindowRun, error)
 	Definitions(ctx context.Context, datasetID int64) ([]store.Definition, error)
 	InsertDefinition(ctx context.Context, d store.Definition) (store.Definition, error)
+	AttributeNames(ctx context.Context, datasetID int64) ([]string, error)
 }
 
 // Jobs is what the handlers need from the job runner.

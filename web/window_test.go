@@ -21,7 +21,7 @@ func TestWindowPageDeriveAndSave(t *testing.T) {
 	if res, body := e.postBody(c, path, url.Values{"percentile": {"0"}, "lookback": {"365"}}); res.StatusCode != http.StatusUnprocessableEntity || !strings.Contains(body, "above 0 and at most 100") {
 		t.Errorf("percentile 0: %d", res.StatusCode)
 	}
-	res := e.post(c, path, url.Values{"percentile": {"90"}, "lookback": {"365"}})
+	res := e.post(c, path, url.Values{"percentile": {"90"}, "lookback": {"365"}, "split": {"channel"}})
 	if res.StatusCode != http.StatusSeeOther {
 		t.Fatalf("derive: %d", res.StatusCode)
 	}
@@ -32,7 +32,8 @@ func TestWindowPageDeriveAndSave(t *testing.T) {
 	if res.StatusCode != http.StatusOK {
 		t.Fatalf("window page: %d", res.StatusCode)
 	}
-	for _, want := range []string{`id="method-mean-gap"`, `id="method-censored"`, `id="x-365"`, `<table class="compact" id="lookup">`, "gaps.svg", "repurchase.svg", "tradeoff.svg"} {
+	for _, want := range []string{`id="method-mean-gap"`, `id="method-censored"`, `id="x-365"`, `<table class="compact" id="lookup">`, "gaps.svg", "repurchase.svg", "tradeoff.svg",
+		"By channel, at X = 90 days", `<th scope="row">market_stall</th>`, `<option value="channel" selected>`} {
 		if !strings.Contains(body, want) {
 			t.Errorf("window page lacks %q", want)
 		}

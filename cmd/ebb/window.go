@@ -33,6 +33,7 @@ return_after_lapse_share), among others.`,
 			var percentile string
 			var lookback, days, horizon int
 			var save, asJSON bool
+			var splitBy string
 			f.String(&db, "db", "ebb.db", "FILE", "SQLite database file")
 			f.String(&dataset, "dataset", "", "NAME", "dataset to derive the window of")
 			f.String(&method, "method", "mean-gap", "METHOD", "mean-gap, pooled-gap or censored")
@@ -42,6 +43,7 @@ return_after_lapse_share), among others.`,
 			f.Int(&days, "days", 0, "X", "with --save: the window to save, in days (default: the derived X)")
 			f.Int(&horizon, "horizon", 0, "H", "with --save: the horizon, in days (default: X)")
 			f.String(&note, "note", "", "TEXT", "with --save: the rationale to record")
+			f.String(&splitBy, "by", "", "ATTRIBUTE", "also split the sensitivity table by this customer attribute (e.g. channel)")
 			f.Bool(&asJSON, "json", "print one JSON object instead of text")
 			return func(ctx context.Context, e env, args []string) error {
 				if len(args) > 0 {
@@ -71,7 +73,7 @@ return_after_lapse_share), among others.`,
 					return fmt.Errorf("window: %w", err)
 				}
 				runID, rep, err := analysis.DeriveWindow(ctx, st, history.NewCache(1), d.ID,
-					gaps.Options{Percentile: q, LookbackDays: lookback}, "ebb window", e.now(), nil)
+					gaps.Options{Percentile: q, LookbackDays: lookback}, splitBy, "ebb window", e.now(), nil)
 				if err != nil {
 					return fmt.Errorf("window: %w", err)
 				}
@@ -135,6 +137,18 @@ func printWindowText(e env, rep *analysis.WindowReport, chosen gaps.Method, save
 			fmt.Fprintf(e.stdout, "%s: %s\n", w.Method, w.Sentence)
 		} else {
 			fmt.Fprintf(e.stdout, "%s: %s\n", w.Method, w.Reason)
+		}
+	}
+	if sp := rep.Split; sp != nil {
+		if w, ok := rep.Window(chosen); ok && w.OK {
+			fmt.Fprintf(e.stdout, "by %s at X = %d days:\n", sp.Attribute, w.Days)
+			tw := tabwriter.NewWriter(e.stdout, 0, 0, 2, ' ', 0)
+			fmt.Fprintln(tw, "  level	customers	lapsed today	returned after lapsing	")
+			for l, name := range sp.Levels {
+				c := sp.Cells[w.Days-1][1+l]
+				fmt.Fprintf(tw, "  %s	%d	%.1f%%	%.1f%%	\n", name, sp.Customers[l], 100*c.LapsedShare(), 100*c.ReturnShare())
+			}
+			tw.Flush()
 		}
 	}
 	if saved != nil {

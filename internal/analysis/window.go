@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"slices"
 	"strings"
 	"time"
 
@@ -32,7 +33,26 @@ type WindowReport struct {
 	Sensitivity []gaps.Row    `json:"sensitivity"`
 	// Note says when the look-back reaches before the first order.
 	Note string `json:"note,omitempty"`
+	// Split is the sensitivity table by one customer attribute, if asked.
+	Split *AttributeSplit `json:"split,omitempty"`
 }
+
+// AttributeSplit is the sensitivity table by the levels of one attribute.
+type AttributeSplit struct {
+	Attribute string   `json:"attribute"`
+	Levels    []string `json:"levels"`
+	Customers []int    `json:"customers"` // per level
+	// Cells[x−1][0] is every customer, Cells[x−1][1+l] level l.
+	Cells [][]gaps.Cell `json:"cells"`
+}
+
+// MinLevelCustomers is the fewest customers a level of a split needs to be
+// shown on its own; smaller levels are pooled as "other" (common practice:
+// shares of a handful of customers mislead).
+const MinLevelCustomers = 30
+
+// maxLevels bounds the levels of a split shown on their own.
+const maxLevels = 10
 
 // Window returns the report's window of one method.
 func (r *WindowReport) Window(m gaps.Method) (gaps.Window, bool) {
@@ -56,6 +76,7 @@ func (r *WindowReport) Row(x int) (gaps.Row, bool) {
 type WindowParams struct {
 	DatasetID int64        `json:"dataset_id"`
 	Options   gaps.Options `json:"options"`
+	SplitBy   string       `json:"split_by,omitempty"` // a customer attribute, or ""
 }
 
 // Histories is the shared cache of loaded order histories.
@@ -78,7 +99,7 @@ func loadHistory(ctx context.Context, st *store.Store, cache *Histories, d store
 
 // DeriveWindow runs every window method and the sensitivity table on the
 // dataset's current version and stores the report; it returns the run id.
-func DeriveWindow(ctx context.Context, st *store.Store, cache *Histories, datasetID int64, opt gaps.Options, by string, now time.Time,
+func DeriveWindow(ctx context.Context, st *store.Store, cache *Histories, datasetID int64, opt gaps.Options, splitBy string, by string, now time.Time,
 	progress func(pct float64, note string)) (int64, *WindowReport, error) {
 	if progress == nil {
 		progress = func(float64, string) {}
@@ -115,6 +136,19 @@ func DeriveWindow(ctx context.Context, st *store.Store, cache *Histories, datase
 	if rep.Figures, err = gaps.Chart(h, opt); err != nil {
 		return 0, nil, err
 	}
+	if splitBy != "" {
+		progress(75, "splitting the table by "+splitBy)
+		values, err := st.CustomerAttribute(ctx, d.ID, splitBy, h.Customers())
+		if err != nil {
+			return 0, nil, err
+		}
+		split, level := levelsOf(splitBy, values)
+		if len(split.Levels) == 0 {
+			return 0, nil, problem.New(problem.Invalid, "no customer has a value of the attribute %q", splitBy)
+		}
+		split.Cells = gaps.SensitivityBy(h, lookback, opt.FollowUpDays, level, len(split.Levels))
+		rep.Split = split
+	}
 	if span := int(h.DataThrough() - h.First()); span < lookback {
 		rep.Note = fmt.Sprintf("The look-back of %d days reaches before the first order (%s): the data cover only %d days.", lookback, h.First(), span+1)
 	}
@@ -146,7 +180,7 @@ func WindowJob(st *store.Store, cache *Histories, now func() time.Time) jobs.Fun
 		if err := json.Unmarshal(j.Params, &params); err != nil {
 			return nil, fmt.Errorf("window job %d: params: %w", j.ID, err)
 		}
-		id, _, err := DeriveWindow(ctx, st, cache, params.DatasetID, params.Options, j.CreatedBy, now(), p.Set)
+		id, _, err := DeriveWindow(ctx, st, cache, params.DatasetID, params.Options, params.SplitBy, j.CreatedBy, now(), p.Set)
 		if err != nil {
 			return nil, err
 		}
@@ -211,4 +245,62 @@ func SaveDefinition(ctx context.Context, st DefinitionStore, datasetID int64, in
 	return st.InsertDefinition(ctx, store.Definition{DatasetID: d.ID, WindowDays: in.WindowDays, HorizonDays: in.HorizonDays,
 		Method: in.Method, Percentile: in.Percentile, LookbackDays: in.LookbackDays, DerivedDays: in.DerivedDays, RunID: in.RunID,
 		VersionID: d.Version, Rationale: in.Rationale, CreatedBy: by, CreatedAt: now})
+}
+
+// levelsOf maps attribute values to levels: the most common first, at most
+// maxLevels of them with MinLevelCustomers each, the rest pooled as
+// "other"; customers without a value get −1.
+func levelsOf(name string, values []string) (*AttributeSplit, []int32) {
+	counts := map[string]int{}
+	for _, v := range values {
+		if v != "" {
+			counts[v]++
+		}
+	}
+	type lv struct {
+		v string
+		n int
+	}
+	var ls []lv
+	for v, n := range counts {
+		ls = append(ls, lv{v, n})
+	}
+	slices.SortFunc(ls, func(a, b lv) int {
+		if a.n != b.n {
+			return b.n - a.n
+		}
+		return strings.Compare(a.v, b.v)
+	})
+	split := &AttributeSplit{Attribute: name}
+	index := map[string]int32{}
+	other := int32(-1)
+	for _, l := range ls {
+		if l.n >= MinLevelCustomers && len(split.Levels) < maxLevels {
+			index[l.v] = int32(len(split.Levels))
+			split.Levels = append(split.Levels, l.v)
+			split.Customers = append(split.Customers, l.n)
+			continue
+		}
+		if other < 0 {
+			other = -2 // assigned after the named levels
+		}
+	}
+	if other == -2 {
+		other = int32(len(split.Levels))
+		split.Levels = append(split.Levels, "other")
+		split.Customers = append(split.Customers, 0)
+	}
+	level := make([]int32, len(values))
+	for c, v := range values {
+		switch i, ok := index[v]; {
+		case v == "":
+			level[c] = -1
+		case ok:
+			level[c] = i
+		default:
+			level[c] = other
+			split.Customers[other]++
+		}
+	}
+	return split, level
 }

@@ -68,6 +68,46 @@ type Row struct {
 // O(gaps + MaxX·W): each gap is binned once by its length and by the last X
 // at which it still counts, and each X reads the bins.
 func Sensitivity(h *history.History, lookbackDays, followUpDays int) []Row {
+	cells := accumulate(h, lookbackDays, followUpDays, int(groups),
+		func(c, n int) int {
+			if n == 1 {
+				return int(FirstTime)
+			}
+			return int(Repeat)
+		},
+		func(c, i int) int {
+			if i == 0 {
+				return int(FirstTime)
+			}
+			return int(Repeat)
+		})
+	rows := make([]Row, MaxX)
+	for x := range rows {
+		rows[x].Days = x + 1
+		copy(rows[x].Cells[:], cells[x])
+	}
+	return rows
+}
+
+// SensitivityBy is the same table split by a customer attribute: level[c]
+// is customer c's level (0 … levels−1; −1 for none, counted in the whole
+// only). cells[x−1][0] is every customer, cells[x−1][1+l] level l.
+func SensitivityBy(h *history.History, lookbackDays, followUpDays int, level []int32, levels int) [][]Cell {
+	g := func(c int) int {
+		if c < len(level) && level[c] >= 0 {
+			return 1 + int(level[c])
+		}
+		return -1
+	}
+	return accumulate(h, lookbackDays, followUpDays, 1+levels,
+		func(c, n int) int { return g(c) }, func(c, i int) int { return g(c) })
+}
+
+// accumulate computes the cells of every X for ng groups. Group 0 is every
+// customer; customerGroup (of a customer with n order days) and lapseGroup
+// (of the lapse after a customer's i-th order day) name one more group
+// each, or −1 for none.
+func accumulate(h *history.History, lookbackDays, followUpDays, ng int, customerGroup func(c, n int) int, lapseGroup func(c, i int) int) [][]Cell {
 	if lookbackDays <= 0 {
 		lookbackDays = 365
 	}
@@ -77,26 +117,22 @@ func Sensitivity(h *history.History, lookbackDays, followUpDays int) []Row {
 	W := followUpDays
 	through := h.DataThrough()
 	from := through - civil.Date(lookbackDays)
-	rows := make([]Row, MaxX)
-	for x := range rows {
-		rows[x].Days = x + 1
-	}
 
-	// Lapsed today: histogram of recency by group.
-	var recency [groups][]int
+	// Lapsed today: histogram of recency (capped at MaxX+1) per group.
+	recency := make([][]int, ng)
 	for g := range recency {
-		recency[g] = make([]int, MaxX+2) // recency capped at MaxX+1
+		recency[g] = make([]int, MaxX+2)
 	}
 	// Lapse episodes: bins[g][len][m] counts gaps of length len (capped at
 	// bigLen, and bigLen for open gaps) whose last countable X is m
 	// (capped at MaxX; m < 1 never counts).
 	bigLen := MaxX + W + 1
-	var bins [groups][][]int32
+	bins := make([][][]int32, ng)
 	for g := range bins {
 		bins[g] = make([][]int32, bigLen+1)
 	}
-	add := func(g Group, length, m int) {
-		if m < 1 {
+	add := func(g, length, m int) {
+		if g < 0 || m < 1 {
 			return
 		}
 		m = min(m, MaxX)
@@ -119,32 +155,31 @@ func Sensitivity(h *history.History, lookbackDays, followUpDays int) []Row {
 			continue
 		}
 		if days[n-1] > from {
-			g := Repeat
-			if n == 1 {
-				g = FirstTime
-			}
 			r := min(int(through-days[n-1]), MaxX+1)
-			recency[g][r]++
-			recency[All][r]++
+			recency[0][r]++
+			if g := customerGroup(c, n); g > 0 {
+				recency[g][r]++
+			}
 		}
 		for i, d := range days {
-			g := Repeat
-			if i == 0 {
-				g = FirstTime
-			}
 			length := bigLen // open: no next order day
 			if i+1 < n {
 				length = int(days[i+1] - d)
 			}
 			m := int(through-d) - W // counts while d + X + W ≤ through
-			add(g, length, m)
-			add(All, length, m)
+			add(0, length, m)
+			if g := lapseGroup(c, i); g > 0 {
+				add(g, length, m)
+			}
 		}
 	}
 
-	for g := All; g < groups; g++ {
-		// Lapsed today from the recency histogram: active = all, lapsed(X) =
-		// customers with recency ≥ X.
+	cells := make([][]Cell, MaxX)
+	for x := range cells {
+		cells[x] = make([]Cell, ng)
+	}
+	waits := make([]int, W+1)
+	for g := 0; g < ng; g++ {
 		active := 0
 		for _, k := range recency[g] {
 			active += k
@@ -152,8 +187,8 @@ func Sensitivity(h *history.History, lookbackDays, followUpDays int) []Row {
 		atLeast := active
 		for x := 1; x <= MaxX; x++ {
 			atLeast -= recency[g][x-1]
-			rows[x-1].Cells[g].Active = active
-			rows[x-1].Cells[g].Lapsed = atLeast
+			cells[x-1][g].Active = active
+			cells[x-1][g].Lapsed = atLeast
 		}
 		// suffix[len][X] = gaps of that length still counting at X.
 		suffix := make([][]int32, bigLen+1)
@@ -167,9 +202,8 @@ func Sensitivity(h *history.History, lookbackDays, followUpDays int) []Row {
 			}
 			suffix[length] = s
 		}
-		waits := make([]int, W+1)
 		for x := 1; x <= MaxX; x++ {
-			cell := &rows[x-1].Cells[g]
+			cell := &cells[x-1][g]
 			clear(waits)
 			for length := x + 1; length <= bigLen; length++ { // lapsed: the gap is longer than X
 				s := suffix[length]
@@ -186,7 +220,7 @@ func Sensitivity(h *history.History, lookbackDays, followUpDays int) []Row {
 			cell.MedianExtraWait = medianOfCounts(waits, cell.Returned)
 		}
 	}
-	return rows
+	return cells
 }
 
 // medianOfCounts is the median (Hyndman & Fan definition 7, so the mean of

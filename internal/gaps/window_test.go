@@ -211,3 +211,40 @@ func TestChartFigures(t *testing.T) {
 		t.Errorf("CapShare = %v, want 1", f.CapShare)
 	}
 }
+
+func TestSensitivityByAttribute(t *testing.T) {
+	h := handBuilt(t)
+	// Customers 0–19 are A and B (level 0), 20–29 C and 35–44 E (level 1),
+	// 30–34 D (no level).
+	level := make([]int32, 45)
+	for c := range level {
+		switch {
+		case c < 20:
+			level[c] = 0
+		case c >= 30 && c < 35:
+			level[c] = -1
+		default:
+			level[c] = 1
+		}
+	}
+	cells := SensitivityBy(h, 100, 100, level, 2)
+	// X = 10: level 0 has A (recency 40) and B (30), both lapsed, and B's
+	// ten lapses after 850, all returned after 50 days; level 1 has C
+	// (recency 10, lapsed) and E (5), and no lapse early enough to watch.
+	// The whole (index 0) still counts D's lapses: 20 episodes, 15 returns.
+	tests := []struct {
+		g                        int
+		active, lapsed, eps, ret int
+		median                   float64
+	}{
+		{0, 40, 30, 20, 15, 50},
+		{1, 20, 20, 10, 10, 50},
+		{2, 20, 10, 0, 0, 0},
+	}
+	for _, tt := range tests {
+		c := cells[9][tt.g]
+		if c.Active != tt.active || c.Lapsed != tt.lapsed || c.Episodes != tt.eps || c.Returned != tt.ret || c.MedianExtraWait != tt.median {
+			t.Errorf("group %d at X=10: %+v; want active %d lapsed %d episodes %d returned %d median %v", tt.g, c, tt.active, tt.lapsed, tt.eps, tt.ret, tt.median)
+		}
+	}
+}

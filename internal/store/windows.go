@@ -139,3 +139,46 @@ func (s *Store) CurrentDefinition(ctx context.Context, datasetID int64) (Definit
 	}
 	return ds[0], nil
 }
+
+// AttributeNames lists the attribute columns stored for a dataset's
+// customers, by name.
+func (s *Store) AttributeNames(ctx context.Context, datasetID int64) ([]string, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT DISTINCT j.key FROM customers c, json_each(c.attributes) j
+		WHERE c.dataset_id = ? AND c.attributes IS NOT NULL ORDER BY 1`, datasetID)
+	if err != nil {
+		return nil, fmt.Errorf("attribute names of dataset %d: %w", datasetID, err)
+	}
+	defer rows.Close()
+	var out []string
+	for rows.Next() {
+		var n string
+		if err := rows.Scan(&n); err != nil {
+			return nil, err
+		}
+		out = append(out, n)
+	}
+	return out, rows.Err()
+}
+
+// CustomerAttribute returns every customer's value of one attribute, by
+// dense customer id (n ids; "" where unset).
+func (s *Store) CustomerAttribute(ctx context.Context, datasetID int64, name string, n int) ([]string, error) {
+	out := make([]string, n)
+	rows, err := s.r.QueryContext(ctx, `SELECT id, json_extract(attributes, ?) FROM customers
+		WHERE dataset_id = ? AND attributes IS NOT NULL`, `$."`+name+`"`, datasetID)
+	if err != nil {
+		return nil, fmt.Errorf("attribute %q of dataset %d: %w", name, datasetID, err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var id int
+		var v sql.NullString
+		if err := rows.Scan(&id, &v); err != nil {
+			return nil, err
+		}
+		if id >= 0 && id < n {
+			out[id] = v.String
+		}
+	}
+	return out, rows.Err()
+}
