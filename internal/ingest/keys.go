@@ -14,6 +14,11 @@ import (
 type Keys struct {
 	ids  map[string]int32
 	keys []string
+	// last remembers the previous lookup: exports sorted by customer repeat
+	// a key on consecutive rows, and a string compare beats a map probe.
+	last    string
+	lastID  int32
+	hasLast bool
 }
 
 // NewKeys starts from the keys already stored: existing[i] has id i.
@@ -27,14 +32,27 @@ func NewKeys(existing []string) *Keys {
 
 // ID returns key's id, assigning the next one when key is new.
 func (k *Keys) ID(key string) (id int32, isNew bool) {
-	if id, ok := k.ids[key]; ok {
-		return id, false
+	if k.hasLast && key == k.last {
+		return k.lastID, false
 	}
-	key = strings.Clone(key) // the record's backing string must not stay alive
-	id = int32(len(k.keys))
-	k.keys = append(k.keys, key)
-	k.ids[key] = id
-	return id, true
+	id, ok := k.ids[key]
+	if !ok {
+		key = strings.Clone(key) // the record's backing string must not stay alive
+		id = int32(len(k.keys))
+		k.keys = append(k.keys, key)
+		k.ids[key] = id
+		isNew = true
+	}
+	k.last, k.lastID, k.hasLast = k.keys[id], id, true
+	return id, isNew
+}
+
+// reserve sizes an empty key map for about n keys, so that it does not
+// rehash every key several times while growing.
+func (k *Keys) reserve(n int) {
+	if len(k.ids) == 0 && n > 0 {
+		k.ids = make(map[string]int32, n)
+	}
 }
 
 // Lookup returns key's id without assigning one.

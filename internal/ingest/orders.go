@@ -155,8 +155,14 @@ func ReadOrders(ctx context.Context, r io.Reader, opt OrderOptions, sink func(Ba
 	br := bufio.NewReaderSize(r, 256<<10)
 	skipBOM(br)
 	sum.Delimiter = detectDelimiter(br)
-	if opt.Refs != nil && opt.Size > 0 {
-		opt.Refs.reserve(estimateRows(br, opt.Size))
+	if opt.Size > 0 {
+		rows := estimateRows(br, opt.Size)
+		if opt.Refs != nil {
+			opt.Refs.reserve(rows)
+		}
+		// Order logs have a few orders per customer; a third of the rows
+		// is a generous guess that costs little when wrong.
+		opt.Keys.reserve(rows / 3)
 	}
 	cr := csv.NewReader(br)
 	cr.Comma = rune(sum.Delimiter)
