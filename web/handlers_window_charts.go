@@ -40,16 +40,23 @@ func (s *Server) handleWindowChart(w http.ResponseWriter, r *http.Request) {
 		s.fail(w, r, err)
 		return
 	}
+	chosen := 0 // the current churn definition's X, marked as the chosen one
+	if defs, err := s.store.Definitions(r.Context(), id); err == nil && len(defs) > 0 {
+		chosen = defs[0].WindowDays
+	}
 	var buf bytes.Buffer
 	switch name {
 	case "gaps":
 		h := gapHistogram(rep, r.URL.Query().Get("log") == "1")
+		h.Markers = withChosen(h.Markers, chosen, h.Edges[len(h.Edges)-1])
 		err = drawChart(&buf, ext, h.SVG, h.PNG)
 	case "repurchase":
 		c := repurchaseCurve(rep)
+		c.Markers = withChosen(c.Markers, chosen, c.MaxX)
 		err = drawChart(&buf, ext, c.SVG, c.PNG)
 	case "tradeoff":
 		c := tradeoffLines(rep)
+		c.Markers = withChosen(c.Markers, chosen, float64(gaps.MaxX))
 		err = drawChart(&buf, ext, c.SVG, c.PNG)
 	default:
 		err = problem.New(problem.NotFound, "there is no such chart")
@@ -87,6 +94,14 @@ func windowMarkers(rep *analysis.WindowReport, maxX float64, only ...gaps.Method
 		ms = append(ms, charts.Marker{X: float64(wd.Days), Label: string(wd.Method) + " " + strconv.Itoa(wd.Days) + " d", Dashed: wd.Method != gaps.Censored})
 	}
 	return ms
+}
+
+// withChosen adds the current definition's X when it is on the axis.
+func withChosen(ms []charts.Marker, chosen int, maxX float64) []charts.Marker {
+	if chosen <= 0 || float64(chosen) > maxX {
+		return ms
+	}
+	return append(ms, charts.Marker{X: float64(chosen), Label: "chosen X = " + strconv.Itoa(chosen) + " d"})
 }
 
 // gapHistogram bins the stored per-day gap counts. The axis reaches twice

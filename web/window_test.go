@@ -59,6 +59,11 @@ func TestWindowPageDeriveAndSave(t *testing.T) {
 	if err != nil || def.WindowDays != 90 || def.HorizonDays != 90 || def.Method != "censored" || def.Percentile != 90 || def.LookbackDays != 365 || def.RunID != 1 || def.DerivedDays == 0 {
 		t.Errorf("saved definition = %+v, %v", def, err)
 	}
+	for _, chart := range []string{"gaps.svg", "tradeoff.svg", "repurchase.svg"} {
+		if _, svg := e.get(c, path+"/"+chart); !strings.Contains(svg, "chosen X = 90 d") {
+			t.Errorf("%s does not mark the chosen X", chart)
+		}
+	}
 	_, body = e.get(c, path)
 	if !strings.Contains(body, "Saved: a customer counts as lapsed after 90 silent days.") || !strings.Contains(body, `<span class="tag">current</span>`) {
 		t.Error("the saved definition is not shown as current")
