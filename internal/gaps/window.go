@@ -182,54 +182,46 @@ func percentileWindow(w *Window, values []float64, q float64, what, sentence str
 	w.Sentence = fmt.Sprintf(sentence, q, w.Days)
 }
 
-func meanGap(h *history.History, opt Options) Window {
-	l := newLookback(h, opt.LookbackDays)
-	w := Window{Method: MeanGap, Percentile: opt.Percentile}
-	var means []float64
+// eachRepeat calls fn with the look-back order days of every customer who
+// has two or more of them, and counts the others in w.
+func eachRepeat(h *history.History, l lookback, w *Window, fn func(days []civil.Date)) {
 	for c := 0; c < h.Customers(); c++ {
 		all := h.Days(c)
 		if len(all) == 0 {
 			continue
 		}
-		days := l.inL(all)
-		switch len(days) {
-		case 0:
-			w.OutsideLookback++
-		case 1:
-			w.SingleOrderCustomers++
-		default:
-			means = append(means, float64(days[len(days)-1]-days[0])/float64(len(days)-1))
-			w.Episodes += len(days) - 1
-		}
-	}
-	w.CustomersUsed = len(means)
-	percentileWindow(&w, means, opt.Percentile, "customers with two order days",
-		"%g%% of repeat customers' average gap between orders is %d days or shorter")
-	return w
-}
-
-func pooledGap(h *history.History, opt Options) Window {
-	l := newLookback(h, opt.LookbackDays)
-	w := Window{Method: PooledGap, Percentile: opt.Percentile}
-	var gaps []float64
-	for c := 0; c < h.Customers(); c++ {
-		all := h.Days(c)
-		if len(all) == 0 {
-			continue
-		}
-		days := l.inL(all)
-		switch len(days) {
+		switch days := l.inL(all); len(days) {
 		case 0:
 			w.OutsideLookback++
 		case 1:
 			w.SingleOrderCustomers++
 		default:
 			w.CustomersUsed++
-			for i := 1; i < len(days); i++ {
-				gaps = append(gaps, float64(days[i]-days[i-1]))
-			}
+			fn(days)
 		}
 	}
+}
+
+func meanGap(h *history.History, opt Options) Window {
+	w := Window{Method: MeanGap, Percentile: opt.Percentile}
+	var means []float64
+	eachRepeat(h, newLookback(h, opt.LookbackDays), &w, func(days []civil.Date) {
+		means = append(means, float64(days[len(days)-1]-days[0])/float64(len(days)-1))
+		w.Episodes += len(days) - 1
+	})
+	percentileWindow(&w, means, opt.Percentile, "customers with two order days",
+		"%g%% of repeat customers' average gap between orders is %d days or shorter")
+	return w
+}
+
+func pooledGap(h *history.History, opt Options) Window {
+	w := Window{Method: PooledGap, Percentile: opt.Percentile}
+	var gaps []float64
+	eachRepeat(h, newLookback(h, opt.LookbackDays), &w, func(days []civil.Date) {
+		for i := 1; i < len(days); i++ {
+			gaps = append(gaps, float64(days[i]-days[i-1]))
+		}
+	})
 	w.Episodes = len(gaps)
 	percentileWindow(&w, gaps, opt.Percentile, "gaps between order days",
 		"%g%% of gaps between two orders of the same customer are %d days or shorter")

@@ -30,15 +30,10 @@ import (
 // through an index is slower than sorting in Go), and grouped by customer
 // in history.Builder.
 func (s *Store) LoadHistory(ctx context.Context, versionID int64) (*history.History, error) {
-	conn, err := s.r.Conn(ctx)
-	if err != nil {
-		return nil, fmt.Errorf("load history of version %d: %w", versionID, err)
-	}
-	defer conn.Close()
 	var h *history.History
-	err = conn.Raw(func(dc any) error {
+	err := s.readRaw(ctx, func(q driver.ConnPrepareContext) error {
 		var err error
-		h, err = loadHistory(ctx, dc, versionID)
+		h, err = loadHistory(ctx, q, versionID)
 		return err
 	})
 	if err != nil {
@@ -50,22 +45,11 @@ func (s *Store) LoadHistory(ctx context.Context, versionID int64) (*history.Hist
 	return h, nil
 }
 
-func loadHistory(ctx context.Context, dc any, versionID int64) (*history.History, error) {
-	beginner, ok1 := dc.(driver.ConnBeginTx)
-	q, ok2 := dc.(driver.ConnPrepareContext)
-	if !ok1 || !ok2 {
-		return nil, fmt.Errorf("sqlite driver connection %T lacks BeginTx or PrepareContext", dc)
-	}
-	tx, err := beginner.BeginTx(ctx, driver.TxOptions{ReadOnly: true})
-	if err != nil {
-		return nil, err
-	}
-	defer tx.Rollback() // read only: nothing to commit
-
+func loadHistory(ctx context.Context, q driver.ConnPrepareContext, versionID int64) (*history.History, error) {
 	var datasetID, seq int64
 	var through *civil.Date
 	found := false
-	err = rawQuery(ctx, q, `SELECT v.dataset_id, v.seq, d.data_through FROM versions v JOIN datasets d ON d.id = v.dataset_id
+	err := rawQuery(ctx, q, `SELECT v.dataset_id, v.seq, d.data_through FROM versions v JOIN datasets d ON d.id = v.dataset_id
 		WHERE v.id = ?`, []any{versionID}, func(row []driver.Value) error {
 		found = true
 		var ok1, ok2 bool
