@@ -9,7 +9,7 @@ import (
 type Part int8
 
 const (
-	Dropped    Part = iota // embargoed: its label window reaches into the next period
+	Dropped Part = iota // embargoed: its label window reaches into the next period
 	Train
 	Validation
 	Test
