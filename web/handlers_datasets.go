@@ -45,6 +45,15 @@ func (s *Server) datasetView(w http.ResponseWriter, r *http.Request, id int64) (
 		Chrome: s.chrome(w, r, "Dataset "+d.Name, "datasets"), ID: d.ID, Name: d.Name, CanEdit: true,
 		DataThrough: d.DataThrough().String(), LatestOrder: d.LastDay.String(), ThroughSet: d.DataThroughSet != nil,
 	}
+	defs, err := s.store.Definitions(ctx, d.ID)
+	if err != nil {
+		return v, err
+	}
+	if len(defs) > 0 {
+		def := defs[0]
+		v.Definition = fmt.Sprintf("Churn definition %d: a customer counts as lapsed after %d silent days; labels look %d days ahead. Saved by %s on %s.",
+			def.Seq, def.WindowDays, def.HorizonDays, def.CreatedBy, def.CreatedAt.UTC().Format("2006-01-02"))
+	}
 	st, err := s.store.VersionStats(ctx, d.Version)
 	switch {
 	case problem.Is(err, problem.NotFound):

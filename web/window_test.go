@@ -68,4 +68,7 @@ func TestWindowPageDeriveAndSave(t *testing.T) {
 	if !strings.Contains(body, "Saved: a customer counts as lapsed after 90 silent days.") || !strings.Contains(body, `<span class="tag">current</span>`) {
 		t.Error("the saved definition is not shown as current")
 	}
+	if _, page := e.get(c, "/datasets/"+itoa(d.ID)); !strings.Contains(page, "Churn definition 1: a customer counts as lapsed after 90 silent days; labels look 90 days ahead.") {
+		t.Error("the dataset page does not show the current churn definition")
+	}
 }
