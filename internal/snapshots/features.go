@@ -56,11 +56,16 @@ func row(h *history.History, c int, t civil.Date, out []float32) (recency int, o
 	} else {
 		out[7], out[8], out[9] = nan, nan, nan
 	}
+	out[10], out[11] = 0, nan
 	if h.HasAmounts() {
 		out[10] = float32(h.AmountIn(c, t-180, t))
-		out[11] = float32(h.AmountIn(c, first-1, t) / float64(n))
-	} else {
-		out[10], out[11] = 0, nan
+		// Missing unless at least one order day up to t had an amount.
+		for _, a := range h.Amounts(c)[:n] {
+			if a == a {
+				out[11] = float32(h.AmountIn(c, first-1, t) / float64(n))
+				break
+			}
+		}
 	}
 	out[12] = float32(d180 - h.CountIn(c, t-360, t-180))
 	return r, true

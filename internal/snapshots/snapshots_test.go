@@ -160,9 +160,9 @@ func TestFeaturesAndLabels(t *testing.T) {
 	want0 := []float64{70, 0, 1, 2, 3, 4, 400, 110, 30, 70.0 / 110, 40, 17.5, 1}
 	// Customer 1 at 400: one order day at 340, no amount: recency 60;
 	//  windows 0, 1, 1, 1; total 1; tenure 60; gaps missing; spend 0 (the
-	//  day has no amount; AmountIn skips it); mean value NaN (amount sum
-	//  is 0 over 1 day: 0) — the dataset has amounts, so it is 0/1 = 0.
-	want1 := []float64{60, 0, 1, 1, 1, 1, 60, nan, nan, nan, 0, 0, 1}
+	//  day has no amount; AmountIn skips it); mean value missing, since no
+	//  order of theirs had an amount.
+	want1 := []float64{60, 0, 1, 1, 1, 1, 60, nan, nan, nan, 0, nan, 1}
 	for j, name := range tab.Names {
 		for r, want := range [][]float64{want0, want1} {
 			got := float64(tab.Cols[j][r])
