@@ -10,6 +10,7 @@ import (
 	"net/url"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"sync"
 	"testing"
@@ -358,5 +359,81 @@ func TestWindowCommand(t *testing.T) {
 	}
 	if r := runCLI(t, nil, "window", "--db", db, "--dataset", "nope"); r.err == nil || !strings.Contains(r.err.Error(), `there is no dataset "nope"`) {
 		t.Errorf("unknown dataset: %v", r.err)
+	}
+}
+
+func TestTrainAndModelCommands(t *testing.T) {
+	dir := t.TempDir()
+	db := filepath.Join(dir, "t.db")
+	if r := runCLI(t, nil, "demo", "--out", dir); r.err != nil {
+		t.Fatal(r.err)
+	}
+	if r := runCLI(t, nil, "import", "--db", db, "--dataset", "demo", filepath.Join(dir, "orders.csv")); r.err != nil {
+		t.Fatal(r.err)
+	}
+	if r := runCLI(t, nil, "train", "--db", db, "--dataset", "demo"); r.err == nil || !strings.Contains(r.err.Error(), "no churn definition yet") {
+		t.Fatalf("train without a definition: %v", r.err)
+	}
+	if r := runCLI(t, nil, "window", "--db", db, "--dataset", "demo", "--save", "--days", "90", "--note", "a quarter"); r.err != nil {
+		t.Fatal(r.err)
+	}
+	r := runCLI(t, nil, "train", "--db", db, "--dataset", "demo", "--bootstrap", "50", "--json")
+	if r.err != nil {
+		t.Fatalf("train: %v\n%s", r.err, r.stdout)
+	}
+	var out struct {
+		Models []struct {
+			ID               int64   `json:"id"`
+			Name             string  `json:"name"`
+			AUC              float64 `json:"roc_auc"`
+			Low              float64 `json:"roc_auc_low"`
+			High             float64 `json:"roc_auc_high"`
+			AveragePrecision float64 `json:"average_precision"`
+			Brier            float64 `json:"brier"`
+			TestRows         int     `json:"test_rows"`
+			Positives        int     `json:"positives"`
+		} `json:"models"`
+		InUse   int64              `json:"in_use"`
+		Seconds map[string]float64 `json:"seconds"`
+	}
+	if err := json.Unmarshal([]byte(r.stdout), &out); err != nil {
+		t.Fatalf("--json: %v\n%s", err, r.stdout)
+	}
+	if len(out.Models) != 2 {
+		t.Fatalf("models = %+v", out.Models)
+	}
+	for _, m := range out.Models {
+		if m.AUC <= 0.5 || m.AUC >= 1 || m.Low > m.AUC || m.High < m.AUC || m.TestRows == 0 || m.Positives == 0 || m.Positives >= m.TestRows ||
+			m.Brier <= 0 || m.Brier >= 0.25+0.05 || m.AveragePrecision <= 0 {
+			t.Errorf("model %+v is not a plausible evaluation", m)
+		}
+	}
+	// The first trained set marks its best non-baseline model in use.
+	ids := map[string]int64{}
+	for _, m := range out.Models {
+		ids[m.Name] = m.ID
+	}
+	if out.InUse == 0 || out.InUse != ids["logistic"] {
+		t.Errorf("in use = %d, models %+v; want the logistic model in use", out.InUse, out.Models)
+	}
+	if len(out.Seconds) == 0 {
+		t.Error("no stage timings")
+	}
+	base := ids["baseline"]
+	if r := runCLI(t, nil, "model", "use", "--db", db, strconv.FormatInt(base, 10)); r.err != nil {
+		t.Fatal(r.err)
+	}
+	r = runCLI(t, nil, "model", "list", "--db", db, "--dataset", "demo", "--json")
+	var list []struct {
+		ID    int64 `json:"id"`
+		InUse bool  `json:"in_use"`
+	}
+	if err := json.Unmarshal([]byte(r.stdout), &list); err != nil || len(list) != 2 {
+		t.Fatalf("model list: %v %s", err, r.stdout)
+	}
+	for _, m := range list {
+		if m.InUse != (m.ID == base) {
+			t.Errorf("after model use %d: model %d in use = %v", base, m.ID, m.InUse)
+		}
 	}
 }

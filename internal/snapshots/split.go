@@ -67,9 +67,11 @@ func Split(dates []civil.Date, horizonDays int, testShare, validShare float64) (
 		kept[parts[i]]++
 	}
 	if kept[Train] == 0 || kept[Validation] == 0 {
+		// The validation slice spans a seventh of the dates' range; the
+		// embargo needs it longer than H.
 		return nil, problem.New(problem.Invalid,
-			"after the %d-day embargo no %s date is left; use more snapshots, a longer history or a shorter horizon",
-			horizonDays, map[bool]string{true: "training", false: "validation"}[kept[Train] == 0])
+			"after the %d-day embargo no %s date is left: the snapshot dates span %d days, and the validation slice (a seventh of that) must be longer than the horizon; use a shorter horizon or a longer history",
+			horizonDays, map[bool]string{true: "training", false: "validation"}[kept[Train] == 0], int(dates[n-1]-dates[0]))
 	}
 	return parts, nil
 }

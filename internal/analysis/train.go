@@ -1,0 +1,466 @@
+package analysis
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"slices"
+	"strconv"
+	"time"
+
+	"ebb/internal/civil"
+	"ebb/internal/evaluate"
+	"ebb/internal/frame"
+	"ebb/internal/model"
+	"ebb/internal/problem"
+	"ebb/internal/snapshots"
+	"ebb/internal/store"
+)
+
+// TrainOptions configure a training run. Zero values take the defaults.
+type TrainOptions struct {
+	Models     []string // "baseline", "logistic"; default both
+	Snapshots  int      // snapshot dates; default 100
+	Seed       uint64   // default 1
+	MaxRows    int      // row cap (whole customers kept); default 1,000,000
+	TestSample int      // test rows evaluated (whole customers); default 200,000
+	C          float64  // logistic L2 strength, scikit-learn's C; default 1
+	Bootstrap  int      // replicates of each interval; default 200
+	// Clock times the stages (the CLI passes time.Now); nil times nothing.
+	Clock func() time.Time
+}
+
+func (o TrainOptions) resolved() TrainOptions {
+	if len(o.Models) == 0 {
+		o.Models = []string{"baseline", "logistic"}
+	}
+	if o.Snapshots == 0 {
+		o.Snapshots = 100
+	}
+	if o.Seed == 0 {
+		o.Seed = 1
+	}
+	if o.MaxRows == 0 {
+		o.MaxRows = 1_000_000
+	}
+	if o.TestSample == 0 {
+		o.TestSample = 200_000
+	}
+	if o.C == 0 {
+		o.C = 1
+	}
+	if o.Bootstrap == 0 {
+		o.Bootstrap = evaluate.DefaultReplicates
+	}
+	return o
+}
+
+// ListFigures are a list size's figures averaged over the test dates.
+type ListFigures struct {
+	Label     string  `json:"label"` // "top 10%"
+	Size      float64 `json:"size"`  // mean customers on the list per date
+	Precision float64 `json:"precision"`
+	Recall    float64 `json:"recall"`
+	// Sentences for the last test date, in the standard wording.
+	PrecisionSentence string `json:"precision_sentence"`
+	RecallSentence    string `json:"recall_sentence"`
+}
+
+// ModelReport is one model's evaluation on the test period.
+type ModelReport struct {
+	ID               int64              `json:"id,omitempty"`
+	Name             string             `json:"name"`
+	ROCAUC           evaluate.Interval  `json:"roc_auc"`
+	AveragePrecision evaluate.Interval  `json:"average_precision"`
+	Brier            evaluate.Interval  `json:"brier"`
+	LogLoss          float64            `json:"log_loss"`
+	AUCvsBaseline    *evaluate.Interval `json:"auc_vs_baseline,omitempty"`
+	// ROCAUCFirstTime and ROCAUCRepeat split the headline by customers with
+	// one order day and with more (0 when a group has one class only).
+	ROCAUCFirstTime float64       `json:"roc_auc_first_time"`
+	ROCAUCRepeat    float64       `json:"roc_auc_repeat"`
+	Lists           []ListFigures `json:"lists"`
+	Coefficients    []Coefficient `json:"coefficients,omitempty"`
+}
+
+// Coefficient is one logistic term on the standardized scale.
+type Coefficient struct {
+	Term  string  `json:"term"`
+	Value float64 `json:"value"`
+}
+
+// TrainReport is everything a training run found.
+type TrainReport struct {
+	Dataset          string             `json:"dataset"`
+	Version          int                `json:"version"`
+	Definition       int                `json:"definition"`
+	WindowDays       int                `json:"window_days"`
+	HorizonDays      int                `json:"horizon_days"`
+	Dates            map[string]int     `json:"dates"` // per part
+	RowsBeforeCap    int                `json:"rows_before_cap"`
+	Rows             map[string]int     `json:"rows"` // per part, and "test_evaluated"
+	TestPositives    int                `json:"test_positives"`
+	Models           []ModelReport      `json:"models"`
+	Seconds          map[string]float64 `json:"seconds"`
+	Options          TrainOptions       `json:"-"`
+	RefitOnDates     int                `json:"refit_on_dates"`
+	CalibratedOnDate string             `json:"calibrated_on"`
+}
+
+// Train builds snapshots from the dataset's current version and churn
+// definition, trains and calibrates each model, evaluates it on the test
+// period beside the baseline, refits it on all labelled dates before the
+// latest slice, recalibrates it on that slice, and stores the run and the
+// refit models. The first trained set marks its best non-baseline model in
+// use. It returns the run id and the report.
+func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int64, opt TrainOptions, by string, now time.Time,
+	progress func(pct float64, note string)) (int64, *TrainReport, error) {
+	opt = opt.resolved()
+	if progress == nil {
+		progress = func(float64, string) {}
+	}
+	rep := &TrainReport{Seconds: map[string]float64{}, Dates: map[string]int{}, Rows: map[string]int{}, Options: opt}
+	last := time.Time{}
+	stage := func(name string) {
+		if opt.Clock == nil {
+			return
+		}
+		t := opt.Clock()
+		if !last.IsZero() && name != "" {
+			rep.Seconds[name] = t.Sub(last).Seconds()
+		}
+		last = t
+	}
+	stage("")
+	d, err := st.DatasetByID(ctx, datasetID)
+	if err != nil {
+		return 0, nil, err
+	}
+	def, err := st.CurrentDefinition(ctx, d.ID)
+	if problem.Is(err, problem.NotFound) {
+		return 0, nil, problem.New(problem.Invalid, "dataset %q has no churn definition yet: derive the window and save one first", d.Name)
+	} else if err != nil {
+		return 0, nil, err
+	}
+	rep.Dataset, rep.Version, rep.Definition, rep.WindowDays, rep.HorizonDays = d.Name, d.Seq, def.Seq, def.WindowDays, def.HorizonDays
+	progress(2, "loading the order history")
+	h, err := loadHistory(ctx, st, cache, d)
+	if err != nil {
+		return 0, nil, err
+	}
+	stage("load")
+
+	progress(10, "building snapshots")
+	dates, err := snapshots.Dates(h.First(), h.DataThrough(), def.HorizonDays, opt.Snapshots, opt.Seed)
+	if err != nil {
+		return 0, nil, err
+	}
+	parts, err := snapshots.Split(dates, def.HorizonDays, 0, 0)
+	if err != nil {
+		return 0, nil, err
+	}
+	tab, err := snapshots.Build(h, snapshots.Options{WindowDays: def.WindowDays, HorizonDays: def.HorizonDays, Dates: dates,
+		MaxRows: opt.MaxRows, Seed: opt.Seed})
+	if err != nil {
+		return 0, nil, err
+	}
+	rep.RowsBeforeCap = tab.RowsBeforeCap
+	partOf := make(map[civil.Date]snapshots.Part, len(dates))
+	for i, t := range dates {
+		partOf[t] = parts[i]
+		rep.Dates[parts[i].String()]++
+	}
+	fr, err := toFrame(tab)
+	if err != nil {
+		return 0, nil, err
+	}
+	var train, valid, test, refit []int
+	latest := dates[len(dates)-1]
+	for r, t := range tab.Date {
+		p := partOf[t]
+		rep.Rows[p.String()]++
+		switch p {
+		case snapshots.Train:
+			train = append(train, r)
+		case snapshots.Validation:
+			valid = append(valid, r)
+		case snapshots.Test:
+			test = append(test, r)
+		}
+		if p != snapshots.Test {
+			refit = append(refit, r)
+		}
+	}
+	// The latest slice recalibrates the refit models: the test period's dates.
+	latestSlice := slices.Clone(test)
+	test = sampleCustomers(tab, test, opt.TestSample, opt.Seed)
+	rep.Rows["test_evaluated"] = len(test)
+	stage("snapshots")
+
+	trainF, validF, testF := subset(fr, train), subset(fr, valid), subset(fr, test)
+	testLabels := boolLabels(testF.Labels())
+	for _, y := range testLabels {
+		if y {
+			rep.TestPositives++
+		}
+	}
+	if rep.TestPositives == 0 || rep.TestPositives == len(testLabels) {
+		return 0, nil, problem.New(problem.Invalid, "every test row has the same label, so no model can be judged; use a longer history, more snapshots or another horizon")
+	}
+	clusters := make([]int, testF.Rows())
+	for i, c := range testF.Customers() {
+		clusters[i] = int(c)
+	}
+	bopt := evaluate.BootstrapOptions{Replicates: opt.Bootstrap, Seed1: opt.Seed, Seed2: 0x65626221}
+	var baselineScores []float64
+	type trained struct {
+		name string
+		m    *model.Model
+	}
+	var models []trained
+	for i, name := range opt.Models {
+		progress(20+60*float64(i)/float64(len(opt.Models)), "training "+name)
+		m, err := trainModel(name, trainF, def.WindowDays, opt.C)
+		if err != nil {
+			return 0, nil, err
+		}
+		if err := m.Calibrate(model.CalibrationPlatt, validF); err != nil {
+			return 0, nil, err
+		}
+		stage("train_" + name)
+		scores, err := m.Predict(testF)
+		if err != nil {
+			return 0, nil, err
+		}
+		mr, err := evaluateModel(name, m, scores, testF, testLabels, clusters, def.HorizonDays, opt, bopt)
+		if err != nil {
+			return 0, nil, err
+		}
+		if name == "baseline" {
+			baselineScores = scores
+		} else if baselineScores != nil {
+			diff, err := evaluate.PairedBootstrap(scores, baselineScores, testLabels, clusters, evaluate.ROCAUC, bopt)
+			if err == nil {
+				mr.AUCvsBaseline = &diff
+			}
+		}
+		rep.Models = append(rep.Models, mr)
+		models = append(models, trained{name, m})
+		stage("evaluate_" + name)
+	}
+
+	// Refit for lists on every labelled date before the latest slice, and
+	// recalibrate on it.
+	progress(85, "refitting on all labelled snapshots")
+	refitF, sliceF := subset(fr, refit), subset(fr, latestSlice)
+	rep.RefitOnDates = rep.Dates[snapshots.Train.String()] + rep.Dates[snapshots.Validation.String()] + rep.Dates[snapshots.Dropped.String()]
+	rep.CalibratedOnDate = fmt.Sprintf("%s to %s", tab.Date[latestSlice[0]], latest)
+	var stored []store.StoredModel
+	order := bestFirst(rep.Models)
+	for _, i := range order {
+		t := models[i]
+		m, err := trainModel(t.name, refitF, def.WindowDays, opt.C)
+		if err != nil {
+			return 0, nil, err
+		}
+		if err := m.Calibrate(model.CalibrationPlatt, sliceF); err != nil {
+			return 0, nil, err
+		}
+		m.Meta = model.Meta{ChurnDefinitionVersion: strconv.Itoa(def.Seq), DatasetVersion: strconv.Itoa(d.Seq), Seed: opt.Seed}
+		body, err := m.Save()
+		if err != nil {
+			return 0, nil, err
+		}
+		summary, _ := json.Marshal(rep.Models[i])
+		stored = append(stored, store.StoredModel{Name: t.name, Kind: string(m.Kind), Model: body, Summary: summary})
+	}
+	stage("refit")
+	progress(97, "saving")
+	optJSON, _ := json.Marshal(opt)
+	repJSON, err := json.Marshal(rep)
+	if err != nil {
+		return 0, nil, err
+	}
+	useFirst := len(order) > 0 && rep.Models[order[0]].Name != "baseline"
+	runID, ids, err := st.InsertTrainingRun(ctx, store.TrainingRun{DatasetID: d.ID, VersionID: d.Version, DefinitionID: def.ID,
+		Options: optJSON, Report: repJSON, CreatedBy: by, CreatedAt: now}, stored, useFirst)
+	if err != nil {
+		return 0, nil, err
+	}
+	for k, i := range order {
+		rep.Models[i].ID = ids[k]
+	}
+	progress(100, "done")
+	return runID, rep, nil
+}
+
+// bestFirst orders the models by test ROC AUC, best first, non-baselines
+// before the baseline on a tie.
+func bestFirst(ms []ModelReport) []int {
+	idx := make([]int, len(ms))
+	for i := range idx {
+		idx[i] = i
+	}
+	slices.SortStableFunc(idx, func(a, b int) int {
+		if (ms[a].Name == "baseline") != (ms[b].Name == "baseline") {
+			if ms[a].Name == "baseline" {
+				return 1
+			}
+			return -1
+		}
+		switch {
+		case ms[a].ROCAUC.Estimate > ms[b].ROCAUC.Estimate:
+			return -1
+		case ms[a].ROCAUC.Estimate < ms[b].ROCAUC.Estimate:
+			return 1
+		}
+		return 0
+	})
+	return idx
+}
+
+func trainModel(name string, train *frame.Frame, windowDays int, c float64) (*model.Model, error) {
+	switch name {
+	case "baseline":
+		return model.TrainBaseline("recency_days", float64(windowDays))
+	case "logistic":
+		return model.TrainLogistic(train, snapshots.Features, model.LogisticOptions{C: c})
+	}
+	return nil, problem.New(problem.Invalid, "unknown model %q (want baseline or logistic)", name)
+}
+
+func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.Frame, labels []bool, clusters []int, horizon int,
+	opt TrainOptions, bopt evaluate.BootstrapOptions) (ModelReport, error) {
+	mr := ModelReport{Name: name}
+	var err error
+	if mr.ROCAUC, err = evaluate.Bootstrap(scores, labels, clusters, evaluate.ROCAUC, bopt); err != nil {
+		return mr, fmt.Errorf("evaluate %s: %w", name, err)
+	}
+	if mr.AveragePrecision, err = evaluate.Bootstrap(scores, labels, clusters, evaluate.AveragePrecision, bopt); err != nil {
+		return mr, fmt.Errorf("evaluate %s: %w", name, err)
+	}
+	if mr.Brier, err = evaluate.Bootstrap(scores, labels, clusters, evaluate.Brier, bopt); err != nil {
+		return mr, fmt.Errorf("evaluate %s: %w", name, err)
+	}
+	if mr.LogLoss, err = evaluate.LogLoss(scores, labels); err != nil {
+		return mr, fmt.Errorf("evaluate %s: %w", name, err)
+	}
+	// First-time (one order day) and repeat customers separately.
+	total, _ := testF.Col("order_days_total")
+	var s1, s2 []float64
+	var l1, l2 []bool
+	for i, v := range total {
+		if v == 1 {
+			s1, l1 = append(s1, scores[i]), append(l1, labels[i])
+		} else {
+			s2, l2 = append(s2, scores[i]), append(l2, labels[i])
+		}
+	}
+	mr.ROCAUCFirstTime, _ = evaluate.ROCAUC(s1, l1)
+	mr.ROCAUCRepeat, _ = evaluate.ROCAUC(s2, l2)
+	// Lists are drawn on one date: evaluate per test date, then average.
+	byDate := map[int32][]int{}
+	for i, d := range testF.Days() {
+		byDate[d] = append(byDate[d], i)
+	}
+	days := make([]int32, 0, len(byDate))
+	for d := range byDate {
+		days = append(days, d)
+	}
+	slices.Sort(days)
+	for _, pct := range []float64{5, 10, 20} {
+		var lists []evaluate.List
+		var lastList evaluate.List
+		for _, d := range days {
+			rows := byDate[d]
+			sc := make([]float64, len(rows))
+			lb := make([]bool, len(rows))
+			keys := make([]uint64, len(rows))
+			for k, r := range rows {
+				sc[k], lb[k], keys[k] = scores[r], labels[r], tieKey(opt.Seed, testF.Customers()[r])
+			}
+			rk, err := evaluate.NewRanking(sc, lb, keys)
+			if err != nil {
+				continue // a date whose customers all ordered again has no recall
+			}
+			l, err := rk.TopPercent(pct)
+			if err != nil {
+				return mr, fmt.Errorf("evaluate %s: top %g%%: %w", name, pct, err)
+			}
+			lists = append(lists, l)
+			lastList = l
+		}
+		if len(lists) == 0 {
+			continue
+		}
+		avg, err := evaluate.AverageLists(lists)
+		if err != nil {
+			return mr, err
+		}
+		mr.Lists = append(mr.Lists, ListFigures{Label: fmt.Sprintf("top %g%%", pct), Size: avg.MeanSize, Precision: avg.MeanPrecision,
+			Recall: avg.MeanRecall, PrecisionSentence: evaluate.PrecisionSentence(lastList.Size, lastList.Positives, horizon),
+			RecallSentence: evaluate.RecallSentence(lastList.AllPositives, lastList.Positives)})
+	}
+	if m.Logistic != nil {
+		for j, term := range m.Logistic.Terms {
+			mr.Coefficients = append(mr.Coefficients, Coefficient{Term: term, Value: m.Logistic.Coef[j]})
+		}
+	}
+	return mr, nil
+}
+
+// tieKey is a keyed hash of a customer id: ties in scores are broken by it,
+// never by input order (SplitMix64, Steele, Lea & Flood 2014).
+func tieKey(seed uint64, customer int32) uint64 {
+	z := seed ^ (uint64(customer) + 0x9e3779b97f4a7c15)
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
+	return z ^ (z >> 31)
+}
+
+// sampleCustomers keeps at most max of rows, whole customers at a time, by
+// a keyed hash of the customer.
+func sampleCustomers(tab *snapshots.Table, rows []int, max int, seed uint64) []int {
+	if len(rows) <= max {
+		return rows
+	}
+	limit := uint64(float64(max) / float64(len(rows)) * float64(^uint64(0)))
+	var out []int
+	for _, r := range rows {
+		if tieKey(seed+1, tab.Customer[r]) < limit {
+			out = append(out, r)
+		}
+	}
+	return out
+}
+
+func toFrame(tab *snapshots.Table) (*frame.Frame, error) {
+	cols := make([][]float64, len(tab.Cols))
+	for j, c := range tab.Cols {
+		cols[j] = make([]float64, len(c))
+		for i, v := range c {
+			cols[j][i] = float64(v)
+		}
+	}
+	days := make([]int32, len(tab.Date))
+	for i, d := range tab.Date {
+		days[i] = int32(d)
+	}
+	return frame.FromColumns(tab.Names, cols, tab.Label, tab.Customer, days)
+}
+
+func subset(f *frame.Frame, rows []int) *frame.Frame {
+	s, err := f.Subset(rows)
+	if err != nil {
+		panic(err) // rows come from f itself
+	}
+	return s
+}
+
+func boolLabels(ys []uint8) []bool {
+	out := make([]bool, len(ys))
+	for i, y := range ys {
+		out[i] = y == 1
+	}
+	return out
+}

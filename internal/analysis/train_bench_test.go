@@ -1,0 +1,54 @@
+package analysis_test
+
+import (
+	"bytes"
+	"context"
+	"path/filepath"
+	"testing"
+	"time"
+
+	"ebb/demo"
+	"ebb/internal/analysis"
+	"ebb/internal/history"
+	"ebb/internal/store"
+)
+
+// BenchmarkTrain1M is the training run of issue 5 on the demo business
+// grown to 200k customers (about 970k orders): snapshots, baseline and
+// logistic, evaluation with intervals, refit. It reports each stage.
+func BenchmarkTrain1M(b *testing.B) {
+	if testing.Short() {
+		b.Skip("imports a 1M-order demo; skipped under -short")
+	}
+	ctx := context.Background()
+	now := time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
+	st, err := store.Open(ctx, filepath.Join(b.TempDir(), "train.db"), store.Options{Now: func() time.Time { return now }})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer st.Close()
+	biz := demo.Generate(demo.Options{Customers: 200_000})
+	var orders bytes.Buffer
+	biz.WriteOrders(&orders)
+	res, err := analysis.Import(ctx, st, analysis.ImportRequest{Dataset: "big", Orders: analysis.Source{Name: "orders.csv", R: &orders}, Now: now})
+	if err != nil {
+		b.Fatal(err)
+	}
+	if _, err := analysis.SaveDefinition(ctx, st, res.Import.DatasetID, analysis.DefinitionInput{WindowDays: 90, Rationale: "benchmark"}, "bench", now); err != nil {
+		b.Fatal(err)
+	}
+	cache := history.NewCache(1)
+	b.ResetTimer()
+	for range b.N {
+		_, rep, err := analysis.Train(ctx, st, cache, res.Import.DatasetID, analysis.TrainOptions{Clock: time.Now}, "bench", now, nil)
+		if err != nil {
+			b.Fatal(err)
+		}
+		for stage, s := range rep.Seconds {
+			b.ReportMetric(s, stage+"_s")
+		}
+		b.ReportMetric(float64(rep.RowsBeforeCap), "rows_before_cap")
+		b.ReportMetric(float64(rep.Rows["train"]+rep.Rows["validation"]+rep.Rows["test"]+rep.Rows["dropped"]), "rows")
+		b.ReportMetric(float64(rep.Rows["test_evaluated"]), "test_rows")
+	}
+}

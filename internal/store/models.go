@@ -1,0 +1,125 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"time"
+
+	"ebb/internal/problem"
+)
+
+// TrainingRun is a stored training run; Options and Report are JSON owned
+// by internal/analysis.
+type TrainingRun struct {
+	ID, DatasetID, VersionID, DefinitionID int64
+	Options, Report                        []byte
+	CreatedBy                              string
+	CreatedAt                              time.Time
+}
+
+// StoredModel is a model offered for lists.
+type StoredModel struct {
+	ID, RunID, DatasetID int64
+	Name, Kind           string
+	Model, Summary       []byte
+	InUse                bool
+	CreatedAt            time.Time
+}
+
+// InsertTrainingRun stores a run with its models in one transaction; when
+// useFirst is set and the dataset has no model in use, the first model
+// given is marked in use. It returns the run and model ids.
+func (s *Store) InsertTrainingRun(ctx context.Context, r TrainingRun, models []StoredModel, useFirst bool) (int64, []int64, error) {
+	var runID int64
+	var ids []int64
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		res, err := tx.ExecContext(ctx, `INSERT INTO training_runs (dataset_id, version_id, definition_id, options, report, created_by, created_at)
+			VALUES (?, ?, ?, ?, ?, ?, ?)`, r.DatasetID, r.VersionID, r.DefinitionID, string(r.Options), string(r.Report), r.CreatedBy, timeText(r.CreatedAt))
+		if err != nil {
+			return err
+		}
+		runID, _ = res.LastInsertId()
+		var inUse int
+		if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM models WHERE dataset_id = ? AND in_use = 1`, r.DatasetID).Scan(&inUse); err != nil {
+			return err
+		}
+		for i, m := range models {
+			use := useFirst && inUse == 0 && i == 0
+			res, err := tx.ExecContext(ctx, `INSERT INTO models (run_id, dataset_id, name, kind, model, summary, in_use, created_at)
+				VALUES (?, ?, ?, ?, ?, ?, ?, ?)`, runID, r.DatasetID, m.Name, m.Kind, string(m.Model), string(m.Summary), use, timeText(r.CreatedAt))
+			if err != nil {
+				return err
+			}
+			id, _ := res.LastInsertId()
+			ids = append(ids, id)
+		}
+		return nil
+	})
+	if err != nil {
+		return 0, nil, fmt.Errorf("store training run of dataset %d: %w", r.DatasetID, err)
+	}
+	return runID, ids, nil
+}
+
+const modelColumns = `id, run_id, dataset_id, name, kind, model, summary, in_use, created_at`
+
+func scanModel(sc interface{ Scan(...any) error }) (StoredModel, error) {
+	var m StoredModel
+	var model, summary, created string
+	err := sc.Scan(&m.ID, &m.RunID, &m.DatasetID, &m.Name, &m.Kind, &model, &summary, &m.InUse, &created)
+	m.Model, m.Summary, m.CreatedAt = []byte(model), []byte(summary), parseTime(created)
+	return m, err
+}
+
+// Models lists a dataset's models, newest first.
+func (s *Store) Models(ctx context.Context, datasetID int64) ([]StoredModel, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT `+modelColumns+` FROM models WHERE dataset_id = ? ORDER BY id DESC`, datasetID)
+	if err != nil {
+		return nil, fmt.Errorf("list models of dataset %d: %w", datasetID, err)
+	}
+	defer rows.Close()
+	var out []StoredModel
+	for rows.Next() {
+		m, err := scanModel(rows)
+		if err != nil {
+			return nil, fmt.Errorf("list models of dataset %d: %w", datasetID, err)
+		}
+		out = append(out, m)
+	}
+	return out, rows.Err()
+}
+
+// ModelByID returns one model.
+func (s *Store) ModelByID(ctx context.Context, id int64) (StoredModel, error) {
+	m, err := scanModel(s.r.QueryRowContext(ctx, `SELECT `+modelColumns+` FROM models WHERE id = ?`, id))
+	if errors.Is(err, sql.ErrNoRows) {
+		return m, problem.New(problem.NotFound, "there is no model %d", id)
+	}
+	if err != nil {
+		return m, fmt.Errorf("model %d: %w", id, err)
+	}
+	return m, nil
+}
+
+// UseModel marks a model as the one its dataset's lists use.
+func (s *Store) UseModel(ctx context.Context, id int64) error {
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		var dataset int64
+		if err := tx.QueryRowContext(ctx, `SELECT dataset_id FROM models WHERE id = ?`, id).Scan(&dataset); errors.Is(err, sql.ErrNoRows) {
+			return problem.New(problem.NotFound, "there is no model %d", id)
+		} else if err != nil {
+			return err
+		}
+		if _, err := tx.ExecContext(ctx, `UPDATE models SET in_use = 0 WHERE dataset_id = ? AND in_use = 1`, dataset); err != nil {
+			return err
+		}
+		_, err := tx.ExecContext(ctx, `UPDATE models SET in_use = 1 WHERE id = ?`, id)
+		return err
+	})
+	if err != nil && problem.As(err) == nil {
+		return fmt.Errorf("use model %d: %w", id, err)
+	}
+	return err
+}
