@@ -377,7 +377,8 @@ func TestTrainAndModelCommands(t *testing.T) {
 	if r := runCLI(t, nil, "window", "--db", db, "--dataset", "demo", "--save", "--days", "90", "--note", "a quarter"); r.err != nil {
 		t.Fatal(r.err)
 	}
-	r := runCLI(t, nil, "train", "--db", db, "--dataset", "demo", "--bootstrap", "50", "--json")
+	rows := filepath.Join(dir, "test-rows.csv")
+	r := runCLI(t, nil, "train", "--db", db, "--dataset", "demo", "--bootstrap", "50", "--json", "--test-rows", rows)
 	if r.err != nil {
 		t.Fatalf("train: %v\n%s", r.err, r.stdout)
 	}
@@ -418,6 +419,14 @@ func TestTrainAndModelCommands(t *testing.T) {
 	}
 	if len(out.Seconds) == 0 {
 		t.Error("no stage timings")
+	}
+	csvRows, err := os.ReadFile(rows)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimSpace(string(csvRows)), "\n")
+	if lines[0] != "customer_id,snapshot_date,label,baseline,logistic" || len(lines)-1 != out.Models[0].TestRows || !strings.HasPrefix(lines[1], "C") {
+		t.Errorf("test rows: header %q, %d rows (want %d), first %q", lines[0], len(lines)-1, out.Models[0].TestRows, lines[1])
 	}
 	base := ids["baseline"]
 	if r := runCLI(t, nil, "model", "use", "--db", db, strconv.FormatInt(base, 10)); r.err != nil {

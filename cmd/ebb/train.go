@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"os"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -34,8 +35,10 @@ definition (ebb window --save).`,
 			var snaps, maxRows, boot int
 			var seed string
 			var asJSON bool
+			var testRows string
 			f.String(&db, "db", "ebb.db", "FILE", "SQLite database file")
 			f.String(&dataset, "dataset", "", "NAME", "dataset to train on")
+			f.String(&testRows, "test-rows", "", "FILE", "write the evaluated test rows as CSV: customer_id,snapshot_date,label, then one score column per model")
 			f.String(&models, "models", "baseline,logistic", "LIST", "models to train, comma-separated: baseline, logistic")
 			f.Int(&snaps, "snapshots", 100, "N", "snapshot dates")
 			f.String(&seed, "seed", "1", "N", "random seed of dates, sampling and bootstrap")
@@ -64,6 +67,14 @@ definition (ebb window --save).`,
 				}
 				opt := analysis.TrainOptions{Models: strings.Split(models, ","), Snapshots: snaps, Seed: s, MaxRows: maxRows,
 					Bootstrap: boot, Clock: time.Now}
+				if testRows != "" {
+					f, err := os.Create(testRows)
+					if err != nil {
+						return fmt.Errorf("train: --test-rows: %w", err)
+					}
+					defer f.Close()
+					opt.TestRows = f
+				}
 				runID, rep, err := analysis.Train(ctx, st, history.NewCache(1), d.ID, opt, "ebb train", e.now(), nil)
 				if err != nil {
 					return fmt.Errorf("train: %w", err)

@@ -2,8 +2,10 @@ package analysis
 
 import (
 	"context"
+	"encoding/csv"
 	"encoding/json"
 	"fmt"
+	"io"
 	"slices"
 	"strconv"
 	"time"
@@ -28,6 +30,10 @@ type TrainOptions struct {
 	Bootstrap  int      // replicates of each interval; default 200
 	// Clock times the stages (the CLI passes time.Now); nil times nothing.
 	Clock func() time.Time
+	// TestRows, when set, receives the evaluated test rows as CSV:
+	// customer_id,snapshot_date,label, then one score column per model, so
+	// the evaluation can be audited in any tool.
+	TestRows io.Writer `json:"-"`
 }
 
 func (o TrainOptions) resolved() TrainOptions {
@@ -213,6 +219,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	}
 	bopt := evaluate.BootstrapOptions{Replicates: opt.Bootstrap, Seed1: opt.Seed, Seed2: 0x65626221}
 	var baselineScores []float64
+	testScores := map[string][]float64{}
 	type trained struct {
 		name string
 		m    *model.Model
@@ -236,6 +243,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		if err != nil {
 			return 0, nil, err
 		}
+		testScores[name] = scores
 		if name == "baseline" {
 			baselineScores = scores
 		} else if baselineScores != nil {
@@ -247,6 +255,16 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		rep.Models = append(rep.Models, mr)
 		models = append(models, trained{name, m})
 		stage("evaluate_" + name)
+	}
+
+	if opt.TestRows != nil {
+		keys, err := st.CustomerKeys(ctx, d.ID)
+		if err != nil {
+			return 0, nil, err
+		}
+		if err := writeTestRows(opt.TestRows, testF, keys, opt.Models, testScores); err != nil {
+			return 0, nil, fmt.Errorf("write test rows: %w", err)
+		}
 	}
 
 	// Refit for lists on every labelled date before the latest slice, and
@@ -463,4 +481,25 @@ func boolLabels(ys []uint8) []bool {
 		out[i] = y == 1
 	}
 	return out
+}
+
+// writeTestRows writes the evaluated test rows with every model's
+// calibrated score (RFC 4180 via encoding/csv).
+func writeTestRows(w io.Writer, testF *frame.Frame, keys []string, names []string, scores map[string][]float64) error {
+	cw := csv.NewWriter(w)
+	cw.Write(append([]string{"customer_id", "snapshot_date", "label"}, names...))
+	rec := make([]string, 3+len(names))
+	for i := 0; i < testF.Rows(); i++ {
+		rec[0] = keys[testF.Customers()[i]]
+		rec[1] = civil.Date(testF.Days()[i]).String()
+		rec[2] = strconv.Itoa(int(testF.Labels()[i]))
+		for j, n := range names {
+			rec[3+j] = strconv.FormatFloat(scores[n][i], 'g', 10, 64)
+		}
+		if err := cw.Write(rec); err != nil {
+			return err
+		}
+	}
+	cw.Flush()
+	return cw.Error()
 }
