@@ -65,6 +65,9 @@ func (s *Server) handleJobShow(w http.ResponseWriter, r *http.Request) {
 	if j.Kind == analysis.KindImport && len(j.Result) > 0 {
 		importResult(&v, j)
 	}
+	if j.Kind == analysis.KindTrain && j.Status == jobs.Done {
+		trainResult(&v, j)
+	}
 	if j.Kind == analysis.KindWindow && j.Status == jobs.Done {
 		var res analysis.WindowJobResult
 		if json.Unmarshal(j.Result, &res) == nil {
@@ -156,4 +159,32 @@ func (s *Server) handleJobRerun(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	seeOther(w, r, jobPath(nid))
+}
+
+// trainResult states a training run's figures in plain words: each model's
+// ROC AUC with its interval and its difference from the recency baseline,
+// and what a top-10% list caught and missed on the last test date.
+func trainResult(v *views.JobView, j jobs.Job) {
+	var res analysis.TrainJobResult
+	if json.Unmarshal(j.Result, &res) != nil || res.Report == nil {
+		return
+	}
+	rep := res.Report
+	v.Summary = append(v.Summary, fmt.Sprintf("Trained on dataset %q version %d with churn definition %d: lapsed after %d silent days, labels look %d days ahead.",
+		rep.Dataset, rep.Version, rep.Definition, rep.WindowDays, rep.HorizonDays),
+		fmt.Sprintf("Test period: %s rows, of which %s did not order again within %d days.",
+			views.Count(rep.Rows["test_evaluated"]), views.Count(rep.TestPositives), rep.HorizonDays))
+	for _, m := range rep.Models {
+		line := fmt.Sprintf("%s: ROC AUC %.3f (95%% interval %.3f to %.3f), average precision %.3f, Brier score %.3f",
+			m.Name, m.ROCAUC.Estimate, m.ROCAUC.Lower, m.ROCAUC.Upper, m.AveragePrecision.Estimate, m.Brier.Estimate)
+		if d := m.AUCvsBaseline; d != nil {
+			line += fmt.Sprintf("; %+.3f ROC AUC against the recency baseline (%+.3f to %+.3f)", d.Estimate, d.Lower, d.Upper)
+		}
+		v.Summary = append(v.Summary, line+".")
+		for _, l := range m.Lists {
+			if l.Label == "top 10%" {
+				v.Summary = append(v.Summary, fmt.Sprintf("%s, top 10%% list on the last test date: %s %s", m.Name, l.PrecisionSentence, l.RecallSentence))
+			}
+		}
+	}
 }

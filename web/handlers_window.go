@@ -277,3 +277,29 @@ func (s *Server) handleDefinitionSave(w http.ResponseWriter, r *http.Request) {
 	s.flash(w, r, fmt.Sprintf("Saved: a customer counts as lapsed after %d silent days.", x))
 	seeOther(w, r, fmt.Sprintf("/datasets/%d/window#definitions", id))
 }
+
+// handleTrain queues a training run (baseline and logistic) on the
+// dataset's current churn definition.
+func (s *Server) handleTrain(w http.ResponseWriter, r *http.Request) {
+	u, _ := currentUser(r)
+	id, err := idParam(r, "id")
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	if _, err := s.store.DatasetByID(r.Context(), id); err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	body, err := json.Marshal(analysis.TrainParams{DatasetID: id})
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	jid, err := s.jobs.Submit(r.Context(), analysis.KindTrain, id, body, u.Name)
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	seeOther(w, r, jobPath(jid))
+}

@@ -70,7 +70,9 @@ func newEnv(t *testing.T, withDemo bool) *testEnv {
 	}
 	e.runner = jobs.New(st, jobs.Options{Workers: 1, Now: c.now, Log: log, PersistEvery: 50 * time.Millisecond})
 	e.runner.Register(analysis.KindImport, analysis.ImportJob(st, c.now))
-	e.runner.Register(analysis.KindWindow, analysis.WindowJob(st, history.NewCache(2), c.now))
+	hc := history.NewCache(2)
+	e.runner.Register(analysis.KindWindow, analysis.WindowJob(st, hc, c.now))
+	e.runner.Register(analysis.KindTrain, analysis.TrainJob(st, hc, c.now))
 	if _, err := e.runner.Start(ctx); err != nil {
 		t.Fatal(err)
 	}

@@ -35,6 +35,7 @@ var access = map[string]auth.Role{
 	"GET /datasets/{id}/window":               auth.Analyst,
 	"POST /datasets/{id}/window":              auth.Analyst,
 	"POST /datasets/{id}/definitions":         auth.Analyst,
+	"POST /datasets/{id}/train":               auth.Analyst,
 	"GET /datasets/{id}/window/{chart}":       auth.Analyst,
 	"GET /uploads/new":                        auth.Analyst,
 	"POST /uploads":                           auth.Analyst,

@@ -122,6 +122,7 @@ func (s *Server) routes() chi.Router {
 		r.Get("/datasets/{id}/window", s.handleWindowShow)
 		r.Post("/datasets/{id}/window", s.handleWindowDerive)
 		r.Post("/datasets/{id}/definitions", s.handleDefinitionSave)
+		r.Post("/datasets/{id}/train", s.handleTrain)
 		r.Get("/datasets/{id}/window/{chart}", s.handleWindowChart)
 		r.Get("/uploads/new", s.handleUploadForm)
 		r.Post("/uploads", s.handleUpload)

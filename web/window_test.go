@@ -7,6 +7,7 @@ import (
 	"strings"
 	"testing"
 
+	"ebb/internal/analysis"
 	"ebb/internal/jobs"
 )
 
@@ -70,5 +71,35 @@ func TestWindowPageDeriveAndSave(t *testing.T) {
 	}
 	if _, page := e.get(c, "/datasets/"+itoa(d.ID)); !strings.Contains(page, "Churn definition 1: a customer counts as lapsed after 90 silent days; labels look 90 days ahead.") {
 		t.Error("the dataset page does not show the current churn definition")
+	}
+}
+
+func TestTrainFromTheDatasetPage(t *testing.T) {
+	e := newEnv(t, true)
+	c := e.signIn("analyst")
+	d, _ := e.st.DatasetByName(context.Background(), "demo")
+	page := "/datasets/" + itoa(d.ID)
+	if _, body := e.get(c, page); strings.Contains(body, `id="train"`) {
+		t.Error("the Train button is offered before a churn definition exists")
+	}
+	if _, err := analysis.SaveDefinition(context.Background(), e.st, d.ID, analysis.DefinitionInput{WindowDays: 90, Rationale: "a quarter"}, "test", testNow); err != nil {
+		t.Fatal(err)
+	}
+	if _, body := e.get(c, page); !strings.Contains(body, `id="train"`) {
+		t.Fatal("no Train button once a definition exists")
+	}
+	res := e.post(c, page+"/train", nil)
+	if res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("train: %d", res.StatusCode)
+	}
+	j := e.waitJob(res.Header.Get("Location"))
+	if j.Status != jobs.Done {
+		t.Fatalf("train job: %s %s\n%s", j.Status, j.Error, e.logs.String())
+	}
+	_, body := e.get(c, res.Header.Get("Location"))
+	for _, want := range []string{"logistic: ROC AUC 0.", "against the recency baseline", "top 10% list on the last test date: Of the", "did not order again within 90 days."} {
+		if !strings.Contains(body, want) {
+			t.Errorf("job page lacks %q", want)
+		}
 	}
 }

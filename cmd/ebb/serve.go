@@ -141,6 +141,7 @@ func serve(ctx context.Context, e env, o serveOptions) error {
 	histories := history.NewCache(2)
 	runner.Register(analysis.KindImport, analysis.ImportJob(st, now))
 	runner.Register(analysis.KindWindow, analysis.WindowJob(st, histories, now))
+	runner.Register(analysis.KindTrain, analysis.TrainJob(st, histories, now))
 	if n, err := runner.Start(ctx); err != nil {
 		return err
 	} else if n > 0 {

@@ -13,6 +13,7 @@ import (
 	"ebb/internal/civil"
 	"ebb/internal/evaluate"
 	"ebb/internal/frame"
+	"ebb/internal/jobs"
 	"ebb/internal/model"
 	"ebb/internal/problem"
 	"ebb/internal/snapshots"
@@ -29,7 +30,7 @@ type TrainOptions struct {
 	C          float64  // logistic L2 strength, scikit-learn's C; default 1
 	Bootstrap  int      // replicates of each interval; default 200
 	// Clock times the stages (the CLI passes time.Now); nil times nothing.
-	Clock func() time.Time
+	Clock func() time.Time `json:"-"`
 	// TestRows, when set, receives the evaluated test rows as CSV:
 	// customer_id,snapshot_date,label, then one score column per model, so
 	// the evaluation can be audited in any tool.
@@ -294,7 +295,10 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	}
 	stage("refit")
 	progress(97, "saving")
-	optJSON, _ := json.Marshal(opt)
+	optJSON, err := json.Marshal(opt)
+	if err != nil {
+		return 0, nil, fmt.Errorf("encode training options: %w", err)
+	}
 	repJSON, err := json.Marshal(rep)
 	if err != nil {
 		return 0, nil, err
@@ -502,4 +506,36 @@ func writeTestRows(w io.Writer, testF *frame.Frame, keys []string, names []strin
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// KindTrain is the job kind of a training run.
+const KindTrain = "train"
+
+// TrainParams are a training job's parameters.
+type TrainParams struct {
+	DatasetID int64        `json:"dataset_id"`
+	Options   TrainOptions `json:"options"`
+}
+
+// TrainJobResult is a training job's result: the run and its report.
+type TrainJobResult struct {
+	DatasetID int64        `json:"dataset_id"`
+	RunID     int64        `json:"run_id"`
+	Report    *TrainReport `json:"report"`
+}
+
+// TrainJob returns the job function of a training run.
+func TrainJob(st *store.Store, cache *Histories, now func() time.Time) jobs.Func {
+	return func(ctx context.Context, j jobs.Job, p *jobs.Progress) ([]byte, error) {
+		var params TrainParams
+		if err := json.Unmarshal(j.Params, &params); err != nil {
+			return nil, fmt.Errorf("train job %d: params: %w", j.ID, err)
+		}
+		params.Options.Clock = now
+		id, rep, err := Train(ctx, st, cache, params.DatasetID, params.Options, j.CreatedBy, now(), p.Set)
+		if err != nil {
+			return nil, err
+		}
+		return json.Marshal(TrainJobResult{DatasetID: params.DatasetID, RunID: id, Report: rep})
+	}
 }
