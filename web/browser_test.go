@@ -11,6 +11,7 @@ import (
 	"github.com/chromedp/chromedp"
 
 	"ebb/demo"
+	"ebb/internal/analysis"
 	"ebb/internal/browser"
 )
 
@@ -194,5 +195,36 @@ func TestBrowserWindow(t *testing.T) {
 	}
 	if got := p.text(".flash"); !strings.Contains(got, "90 silent days") {
 		t.Errorf("flash = %q", got)
+	}
+}
+
+// TestBrowserTrain trains on the demo data from the dataset page, watches
+// the job, and reads on the models page what a list would catch and miss.
+func TestBrowserTrain(t *testing.T) {
+	e := newEnv(t, true)
+	d, _ := e.st.DatasetByName(context.Background(), "demo")
+	if _, err := analysis.SaveDefinition(context.Background(), e.st, d.ID, analysis.DefinitionInput{WindowDays: 90, Rationale: "a quarter"}, "test", testNow); err != nil {
+		t.Fatal(err)
+	}
+	ctx := browser.New(t)
+	ctx, cancel := context.WithTimeout(ctx, 90*time.Second)
+	defer cancel()
+	p := &page{t: t, ctx: ctx, url: e.srv.URL}
+	p.signIn("test-analyst")
+	p.do(chromedp.Navigate(p.url+"/datasets/"+itoa(d.ID)), chromedp.WaitVisible(chromedp.CSS("#train button")),
+		chromedp.Click(chromedp.CSS("#train button")), chromedp.WaitVisible(chromedp.CSS("#job-progress")))
+	p.waitFor(`document.querySelector("#job-status")?.textContent === "done" && document.querySelector("#result-link")`, 60*time.Second)
+	browser.Screenshot(t, ctx, "train-done")
+	p.do(chromedp.Click(chromedp.CSS("#result-link")), chromedp.WaitVisible(chromedp.CSS("#model-table")))
+	p.waitFor(`Array.from(document.querySelectorAll("main img")).every(i => i.complete && i.naturalWidth > 0)`, 15*time.Second)
+	browser.Screenshot(t, ctx, "models")
+	got := p.text("#model-logistic .sentences")
+	for _, want := range []string{"A top 10% list on the last test date: Of the", "did not order again within 90 days.", "were on the list."} {
+		if !strings.Contains(got, want) {
+			t.Errorf("the logistic model's sentences lack %q:\n%s", want, got)
+		}
+	}
+	if !p.eval(`document.querySelector("#model-table tbody tr:nth-of-type(2) .tag")?.textContent === "in use"`) {
+		t.Error("the logistic model is not marked in use")
 	}
 }

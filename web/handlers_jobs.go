@@ -67,6 +67,10 @@ func (s *Server) handleJobShow(w http.ResponseWriter, r *http.Request) {
 	}
 	if j.Kind == analysis.KindTrain && j.Status == jobs.Done {
 		trainResult(&v, j)
+		var res analysis.TrainJobResult
+		if json.Unmarshal(j.Result, &res) == nil {
+			v.ResultURL, v.ResultLabel = fmt.Sprintf("/datasets/%d/models", res.DatasetID), "Open the models"
+		}
 	}
 	if j.Kind == analysis.KindWindow && j.Status == jobs.Done {
 		var res analysis.WindowJobResult

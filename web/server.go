@@ -38,6 +38,10 @@ type Store interface {
 	Definitions(ctx context.Context, datasetID int64) ([]store.Definition, error)
 	InsertDefinition(ctx context.Context, d store.Definition) (store.Definition, error)
 	AttributeNames(ctx context.Context, datasetID int64) ([]string, error)
+	LatestTrainingRun(ctx context.Context, datasetID int64) (store.TrainingRun, error)
+	Models(ctx context.Context, datasetID int64) ([]store.StoredModel, error)
+	ModelByID(ctx context.Context, id int64) (store.StoredModel, error)
+	UseModel(ctx context.Context, id int64) error
 }
 
 // Jobs is what the handlers need from the job runner.
@@ -123,6 +127,9 @@ func (s *Server) routes() chi.Router {
 		r.Post("/datasets/{id}/window", s.handleWindowDerive)
 		r.Post("/datasets/{id}/definitions", s.handleDefinitionSave)
 		r.Post("/datasets/{id}/train", s.handleTrain)
+		r.Get("/datasets/{id}/models", s.handleModels)
+		r.Get("/datasets/{id}/models/{chart}", s.handleModelChart)
+		r.Post("/models/{id}/use", s.handleModelUse)
 		r.Get("/datasets/{id}/window/{chart}", s.handleWindowChart)
 		r.Get("/uploads/new", s.handleUploadForm)
 		r.Post("/uploads", s.handleUpload)

@@ -97,9 +97,40 @@ func TestTrainFromTheDatasetPage(t *testing.T) {
 		t.Fatalf("train job: %s %s\n%s", j.Status, j.Error, e.logs.String())
 	}
 	_, body := e.get(c, res.Header.Get("Location"))
-	for _, want := range []string{"logistic: ROC AUC 0.", "against the recency baseline", "top 10% list on the last test date: Of the", "did not order again within 90 days."} {
+	for _, want := range []string{"logistic: ROC AUC 0.", "against the recency baseline", "top 10% list on the last test date: Of the", "did not order again within 90 days.", "/models"} {
 		if !strings.Contains(body, want) {
 			t.Errorf("job page lacks %q", want)
+		}
+	}
+	res, body = e.get(c, page+"/models")
+	if res.StatusCode != http.StatusOK {
+		t.Fatalf("models page: %d", res.StatusCode)
+	}
+	for _, want := range []string{`<th scope="row">baseline</th>`, `<th scope="row">logistic</th>`, `<span class="tag">in use</span>`,
+		"A top 10% list on the last test date: Of the", "Gains by decile", "recency_days", "roc.svg", "pr.svg"} {
+		if !strings.Contains(body, want) {
+			t.Errorf("models page lacks %q", want)
+		}
+	}
+	for _, chart := range []string{"roc.svg", "pr.svg", "roc.png"} {
+		if res, _ := e.get(c, page+"/models/"+chart); res.StatusCode != http.StatusOK {
+			t.Errorf("chart %s: %d", chart, res.StatusCode)
+		}
+	}
+	models, _ := e.st.Models(context.Background(), d.ID)
+	var baseline int64
+	for _, m := range models {
+		if m.Name == "baseline" {
+			baseline = m.ID
+		}
+	}
+	if res := e.post(c, "/models/"+itoa(baseline)+"/use", nil); res.StatusCode != http.StatusSeeOther {
+		t.Fatalf("use baseline: %d", res.StatusCode)
+	}
+	models, _ = e.st.Models(context.Background(), d.ID)
+	for _, m := range models {
+		if m.InUse != (m.ID == baseline) {
+			t.Errorf("model %s in use = %v after choosing the baseline", m.Name, m.InUse)
 		}
 	}
 }

@@ -88,6 +88,27 @@ type ModelReport struct {
 	ROCAUCRepeat    float64       `json:"roc_auc_repeat"`
 	Lists           []ListFigures `json:"lists"`
 	Coefficients    []Coefficient `json:"coefficients,omitempty"`
+	// Curves for the model page, thinned to at most curvePoints points.
+	ROC         [][2]float64              `json:"roc"` // (false positive rate, true positive rate)
+	PR          [][2]float64              `json:"pr"`  // (recall, precision)
+	Calibration []evaluate.CalibrationBin `json:"calibration"`
+	Gains       []evaluate.GainsRow       `json:"gains"`
+}
+
+// curvePoints bounds the points kept of a curve.
+const curvePoints = 200
+
+// thin keeps about n evenly spaced points of a curve, and its ends.
+func thin(pts [][2]float64, n int) [][2]float64 {
+	if len(pts) <= n {
+		return pts
+	}
+	out := make([][2]float64, 0, n+1)
+	step := float64(len(pts)-1) / float64(n-1)
+	for i := 0; i < n; i++ {
+		out = append(out, pts[int(float64(i)*step+0.5)])
+	}
+	return out
 }
 
 // Coefficient is one logistic term on the standardized scale.
@@ -422,6 +443,30 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 		mr.Lists = append(mr.Lists, ListFigures{Label: fmt.Sprintf("top %g%%", pct), Size: avg.MeanSize, Precision: avg.MeanPrecision,
 			Recall: avg.MeanRecall, PrecisionSentence: evaluate.PrecisionSentence(lastList.Size, lastList.Positives, horizon),
 			RecallSentence: evaluate.RecallSentence(lastList.AllPositives, lastList.Positives)})
+	}
+	if roc, err := evaluate.ROCCurve(scores, labels); err == nil {
+		pts := make([][2]float64, len(roc))
+		for i, p := range roc {
+			pts[i] = [2]float64{p.FPR, p.TPR}
+		}
+		mr.ROC = thin(pts, curvePoints)
+	}
+	if pr, err := evaluate.PRCurve(scores, labels); err == nil {
+		pts := make([][2]float64, len(pr))
+		for i, p := range pr {
+			pts[i] = [2]float64{p.Recall, p.Precision}
+		}
+		mr.PR = thin(pts, curvePoints)
+	}
+	if mr.Calibration, err = evaluate.CalibrationQuantile(scores, labels, 10); err != nil {
+		return mr, fmt.Errorf("evaluate %s: calibration: %w", name, err)
+	}
+	keys := make([]uint64, len(scores))
+	for i, c := range testF.Customers() {
+		keys[i] = tieKey(opt.Seed, c)
+	}
+	if rk, err := evaluate.NewRanking(scores, labels, keys); err == nil {
+		mr.Gains, _ = rk.Gains(10)
 	}
 	if m.Logistic != nil {
 		for j, term := range m.Logistic.Terms {

@@ -123,3 +123,20 @@ func (s *Store) UseModel(ctx context.Context, id int64) error {
 	}
 	return err
 }
+
+// LatestTrainingRun returns the dataset's newest training run.
+func (s *Store) LatestTrainingRun(ctx context.Context, datasetID int64) (TrainingRun, error) {
+	var r TrainingRun
+	var opts, report, created string
+	err := s.r.QueryRowContext(ctx, `SELECT id, dataset_id, version_id, definition_id, options, report, created_by, created_at
+		FROM training_runs WHERE dataset_id = ? ORDER BY id DESC LIMIT 1`, datasetID).
+		Scan(&r.ID, &r.DatasetID, &r.VersionID, &r.DefinitionID, &opts, &report, &r.CreatedBy, &created)
+	if errors.Is(err, sql.ErrNoRows) {
+		return r, problem.New(problem.NotFound, "no model has been trained on this dataset yet")
+	}
+	if err != nil {
+		return r, fmt.Errorf("latest training run of dataset %d: %w", datasetID, err)
+	}
+	r.Options, r.Report, r.CreatedAt = []byte(opts), []byte(report), parseTime(created)
+	return r, nil
+}
