@@ -12,6 +12,7 @@ import (
 
 	"ebb/internal/analysis"
 	"ebb/internal/charts"
+	"ebb/internal/evaluate"
 	"ebb/internal/problem"
 	"ebb/internal/store"
 	"ebb/web/views"
@@ -99,6 +100,15 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 		}
 		v.Models = append(v.Models, row)
 	}
+	var names []string
+	defaultModel := ""
+	for _, m := range rep.Models {
+		names = append(names, m.Name)
+		if inUse[m.Name] || defaultModel == "" {
+			defaultModel = m.Name
+		}
+	}
+	v.Try = s.tryView(r, d.ID, run.ID, names, defaultModel, rep.HorizonDays)
 	s.render(w, r, http.StatusOK, views.Models(v))
 }
 
@@ -129,13 +139,17 @@ func (s *Server) handleModelChart(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	name, ext, _ := strings.Cut(chi.URLParam(r, "chart"), ".")
-	if (name != "roc" && name != "pr") || (ext != "svg" && ext != "png") {
+	if (name != "roc" && name != "pr" && name != "value") || (ext != "svg" && ext != "png") {
 		s.fail(w, r, problem.New(problem.NotFound, "there is no such chart"))
 		return
 	}
-	_, rep, err := s.latestReport(r, id)
+	run, rep, err := s.latestReport(r, id)
 	if err != nil {
 		s.fail(w, r, err)
+		return
+	}
+	if name == "value" {
+		s.valueChart(w, r, run.ID, rep, ext)
 		return
 	}
 	// Lines need one x for every series; each model's curve is drawn on
@@ -206,4 +220,160 @@ func interpolate(pts [][2]float64, grid []float64) []float64 {
 		}
 	}
 	return out
+}
+
+// tryForm reads the "try a list" fields, with defaults.
+type tryForm struct {
+	model                   string
+	k                       int
+	threshold               float64
+	hasK, hasThreshold      bool
+	value                   analysis.Value
+	kText, tText            string
+	costText, valText, save string
+}
+
+func parseTry(r *http.Request, defaultModel string) (tryForm, error) {
+	q := r.URL.Query()
+	f := tryForm{model: q.Get("model"), kText: q.Get("k"), tText: q.Get("threshold"),
+		costText: q.Get("cost"), valText: q.Get("value"), save: q.Get("save")}
+	if f.model == "" {
+		f.model = defaultModel
+	}
+	if f.costText == "" {
+		f.costText = "2"
+	}
+	if f.valText == "" {
+		f.valText = "40"
+	}
+	if f.save == "" {
+		f.save = "0.1"
+	}
+	var err1, err2, err3 error
+	f.value.CostPerContact, err1 = strconv.ParseFloat(f.costText, 64)
+	f.value.KeptValue, err2 = strconv.ParseFloat(f.valText, 64)
+	f.value.SaveRate, err3 = strconv.ParseFloat(f.save, 64)
+	if err1 != nil || err2 != nil || err3 != nil {
+		return f, problem.New(problem.Invalid, "cost, value and save rate must be numbers")
+	}
+	if err := f.value.Check(); err != nil {
+		return f, err
+	}
+	if f.kText != "" {
+		k, err := strconv.Atoi(strings.TrimSpace(f.kText))
+		if err != nil || k < 1 {
+			return f, problem.New(problem.Invalid, "the list size must be a whole number of customers, at least 1")
+		}
+		f.k, f.hasK = k, true
+	}
+	if f.tText != "" {
+		t, err := strconv.ParseFloat(strings.TrimSpace(f.tText), 64)
+		if err != nil || t < 0 || t > 1 {
+			return f, problem.New(problem.Invalid, "the probability threshold must be between 0 and 1")
+		}
+		f.threshold, f.hasThreshold = t, true
+	}
+	return f, nil
+}
+
+// tryView answers the "try a list" questions from the stored rankings.
+func (s *Server) tryView(r *http.Request, datasetID, runID int64, names []string, defaultModel string, horizon int) views.TryView {
+	f, err := parseTry(r, defaultModel)
+	v := views.TryView{K: f.kText, Threshold: f.tText, Cost: f.costText, Value: f.valText, Save: f.save}
+	for _, n := range names {
+		v.ModelOptions = append(v.ModelOptions, views.Option{Value: n, Label: n, Selected: n == f.model})
+	}
+	if err != nil {
+		v.Error, _ = problem.Message(err)
+		return v
+	}
+	lists, err := s.store.RankedLists(r.Context(), runID, f.model)
+	if err != nil || len(lists) == 0 {
+		return v
+	}
+	var dates []analysis.Ranked
+	for _, l := range lists {
+		rk, err := analysis.DecodeRanked(l.Data)
+		if err != nil {
+			s.log.Warn("decode ranked list", "run", runID, "model", f.model, "err", err)
+			return v
+		}
+		dates = append(dates, rk)
+	}
+	describe := func(what string, size func(analysis.Ranked) int) {
+		var ls []evaluate.List
+		for _, d := range dates {
+			ls = append(ls, d.ListAt(size(d)))
+		}
+		avg, err := evaluate.AverageLists(ls)
+		if err != nil {
+			return
+		}
+		last := ls[len(ls)-1]
+		v.Answers = append(v.Answers, fmt.Sprintf("%s: on average %s customers per date, precision %s, recall %s. On the last test date: %s %s",
+			what, strconv.FormatFloat(avg.MeanSize, 'f', 0, 64), views.Percent(avg.MeanPrecision), views.Percent(avg.MeanRecall),
+			evaluate.PrecisionSentence(last.Size, last.Positives, horizon), evaluate.RecallSentence(last.AllPositives, last.Positives)))
+	}
+	if f.hasK {
+		describe(fmt.Sprintf("The %d highest-risk customers", f.k), func(analysis.Ranked) int { return f.k })
+	}
+	if f.hasThreshold {
+		describe(fmt.Sprintf("Everyone at or above %s", strconv.FormatFloat(f.threshold, 'f', -1, 64)), func(d analysis.Ranked) int { return d.Above(f.threshold) })
+	}
+	_, best := analysis.ExpectedValue(dates, f.value)
+	v.Answers = append(v.Answers, fmt.Sprintf("With a contact costing %s, a kept customer worth %s and %s of contacted would-be lapsers kept, the best list is the top %s of customers, worth %s per list on average.",
+		f.costText, f.valText, views.Percent(f.value.SaveRate), views.Percent(best.Share), strconv.FormatFloat(best.Value, 'f', 0, 64)))
+	v.ValueChart = fmt.Sprintf("/datasets/%d/models/value.svg?model=%s&cost=%s&value=%s&save=%s", datasetID,
+		urlQueryEscape(f.model), urlQueryEscape(f.costText), urlQueryEscape(f.valText), urlQueryEscape(f.save))
+	return v
+}
+
+// valueChart draws the expected value of a list against its size.
+func (s *Server) valueChart(w http.ResponseWriter, r *http.Request, runID int64, rep *analysis.TrainReport, ext string) {
+	f, err := parseTry(r, "")
+	if err != nil || f.model == "" {
+		s.fail(w, r, problem.New(problem.Invalid, "the chart needs a model and valid assumptions"))
+		return
+	}
+	lists, err := s.store.RankedLists(r.Context(), runID, f.model)
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	var dates []analysis.Ranked
+	for _, l := range lists {
+		rk, err := analysis.DecodeRanked(l.Data)
+		if err != nil {
+			s.fail(w, r, err)
+			return
+		}
+		dates = append(dates, rk)
+	}
+	if len(dates) == 0 {
+		s.fail(w, r, problem.New(problem.NotFound, "there is no stored ranking of model %q", f.model))
+		return
+	}
+	pts, best := analysis.ExpectedValue(dates, f.value)
+	c := charts.Lines{Title: "Expected value of a list · " + f.model, XLabel: "List size (share of customers scored, %)", YLabel: "Value per list"}
+	ser := charts.Series{Name: "expected value"}
+	for _, p := range pts {
+		c.X = append(c.X, 100*p.Share)
+		ser.Y = append(ser.Y, p.Value)
+	}
+	c.Series = []charts.Series{ser}
+	c.Markers = []charts.Marker{{X: 100 * best.Share, Label: "best: top " + strconv.FormatFloat(100*best.Share, 'f', 0, 64) + "%"}}
+	var buf bytes.Buffer
+	if ext == "png" {
+		err = c.PNG(&buf)
+		w.Header().Set("Content-Type", "image/png")
+	} else {
+		err = c.SVG(&buf)
+		w.Header().Set("Content-Type", "image/svg+xml")
+		w.Header().Set("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'")
+	}
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	buf.WriteTo(w)
 }

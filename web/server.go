@@ -42,6 +42,7 @@ type Store interface {
 	Models(ctx context.Context, datasetID int64) ([]store.StoredModel, error)
 	ModelByID(ctx context.Context, id int64) (store.StoredModel, error)
 	UseModel(ctx context.Context, id int64) error
+	RankedLists(ctx context.Context, runID int64, model string) ([]store.RankedList, error)
 }
 
 // Jobs is what the handlers need from the job runner.

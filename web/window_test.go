@@ -112,7 +112,17 @@ func TestTrainFromTheDatasetPage(t *testing.T) {
 			t.Errorf("models page lacks %q", want)
 		}
 	}
-	for _, chart := range []string{"roc.svg", "pr.svg", "roc.png"} {
+	_, tried := e.get(c, page+"/models?model=logistic&k=100&threshold=0.6&cost=2&value=40&save=0.2")
+	for _, want := range []string{"The 100 highest-risk customers: on average 100 customers per date", "Everyone at or above 0.6:",
+		"the best list is the top", "value.svg?model=logistic"} {
+		if !strings.Contains(tried, want) {
+			t.Errorf("try-a-list answers lack %q", want)
+		}
+	}
+	if res, b := e.get(c, page+"/models?k=zero"); res.StatusCode != http.StatusOK || !strings.Contains(b, "whole number of customers") {
+		t.Errorf("a bad list size: %d", res.StatusCode)
+	}
+	for _, chart := range []string{"roc.svg", "pr.svg", "roc.png", "value.svg?model=logistic&cost=2&value=40&save=0.2"} {
 		if res, _ := e.get(c, page+"/models/"+chart); res.StatusCode != http.StatusOK {
 			t.Errorf("chart %s: %d", chart, res.StatusCode)
 		}

@@ -241,6 +241,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	}
 	bopt := evaluate.BootstrapOptions{Replicates: opt.Bootstrap, Seed1: opt.Seed, Seed2: 0x65626221}
 	var baselineScores []float64
+	var ranked []store.RankedList
 	testScores := map[string][]float64{}
 	type trained struct {
 		name string
@@ -261,7 +262,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		if err != nil {
 			return 0, nil, err
 		}
-		mr, err := evaluateModel(name, m, scores, testF, testLabels, clusters, def.HorizonDays, opt, bopt)
+		mr, err := evaluateModel(name, m, scores, testF, testLabels, clusters, def.HorizonDays, opt, bopt, &ranked)
 		if err != nil {
 			return 0, nil, err
 		}
@@ -333,6 +334,9 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	for k, i := range order {
 		rep.Models[i].ID = ids[k]
 	}
+	if err := st.InsertRankedLists(ctx, runID, ranked); err != nil {
+		return 0, nil, err
+	}
 	progress(100, "done")
 	return runID, rep, nil
 }
@@ -373,7 +377,7 @@ func trainModel(name string, train *frame.Frame, windowDays int, c float64) (*mo
 }
 
 func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.Frame, labels []bool, clusters []int, horizon int,
-	opt TrainOptions, bopt evaluate.BootstrapOptions) (ModelReport, error) {
+	opt TrainOptions, bopt evaluate.BootstrapOptions, ranked *[]store.RankedList) (ModelReport, error) {
 	mr := ModelReport{Name: name}
 	var err error
 	if mr.ROCAUC, err = evaluate.Bootstrap(scores, labels, clusters, evaluate.ROCAUC, bopt); err != nil {
@@ -411,6 +415,21 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 		days = append(days, d)
 	}
 	slices.Sort(days)
+	for _, d := range days {
+		rows := byDate[d]
+		sc := make([]float64, len(rows))
+		lb := make([]bool, len(rows))
+		keys := make([]uint64, len(rows))
+		pos := 0
+		for k, r := range rows {
+			sc[k], lb[k], keys[k] = scores[r], labels[r], tieKey(opt.Seed, testF.Customers()[r])
+			if lb[k] {
+				pos++
+			}
+		}
+		*ranked = append(*ranked, store.RankedList{Model: name, Day: civil.Date(d).String(), Customers: len(rows), Positives: pos,
+			Data: encodeRanked(sc, lb, keys)})
+	}
 	for _, pct := range []float64{5, 10, 20} {
 		var lists []evaluate.List
 		var lastList evaluate.List

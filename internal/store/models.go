@@ -140,3 +140,52 @@ func (s *Store) LatestTrainingRun(ctx context.Context, datasetID int64) (Trainin
 	r.Options, r.Report, r.CreatedAt = []byte(opts), []byte(report), parseTime(created)
 	return r, nil
 }
+
+// RankedList is one model's ranking of the customers scored on one test
+// date; Data is owned by internal/analysis.
+type RankedList struct {
+	Model     string
+	Day       string
+	Customers int
+	Positives int
+	Data      []byte
+}
+
+// InsertRankedLists stores a run's rankings in one transaction.
+func (s *Store) InsertRankedLists(ctx context.Context, runID int64, lists []RankedList) error {
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		ins, err := tx.PrepareContext(ctx, `INSERT INTO ranked_lists (run_id, model, day, customers, positives, data) VALUES (?, ?, ?, ?, ?, ?)`)
+		if err != nil {
+			return err
+		}
+		defer ins.Close()
+		for _, l := range lists {
+			if _, err := ins.ExecContext(ctx, runID, l.Model, l.Day, l.Customers, l.Positives, l.Data); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("store ranked lists of run %d: %w", runID, err)
+	}
+	return nil
+}
+
+// RankedLists returns a run's rankings of one model, by date.
+func (s *Store) RankedLists(ctx context.Context, runID int64, model string) ([]RankedList, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT model, day, customers, positives, data FROM ranked_lists WHERE run_id = ? AND model = ? ORDER BY day`, runID, model)
+	if err != nil {
+		return nil, fmt.Errorf("ranked lists of run %d: %w", runID, err)
+	}
+	defer rows.Close()
+	var out []RankedList
+	for rows.Next() {
+		var l RankedList
+		if err := rows.Scan(&l.Model, &l.Day, &l.Customers, &l.Positives, &l.Data); err != nil {
+			return nil, err
+		}
+		out = append(out, l)
+	}
+	return out, rows.Err()
+}
