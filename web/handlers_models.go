@@ -78,7 +78,7 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 		row := views.ModelRow{ID: idOf[m.Name], Name: m.Name, InUse: inUse[m.Name],
 			AUC: f3(m.ROCAUC.Estimate), AUCBand: fmt.Sprintf("%s–%s", f3(m.ROCAUC.Lower), f3(m.ROCAUC.Upper)),
 			AP: f3(m.AveragePrecision.Estimate), APBand: fmt.Sprintf("%s–%s", f3(m.AveragePrecision.Lower), f3(m.AveragePrecision.Upper)),
-			Brier: strconv.FormatFloat(m.Brier.Estimate, 'f', 4, 64), LogLoss: f3(m.LogLoss), VsBaseline: "—",
+			Brier: strconv.FormatFloat(m.Brier.Estimate, 'f', 4, 64), LogLoss: f3(m.LogLoss.Estimate), VsBaseline: "—",
 			AUCFirstTime: f3(m.ROCAUCFirstTime), AUCRepeat: f3(m.ROCAUCRepeat)}
 		if d := m.AUCvsBaseline; d != nil {
 			row.VsBaseline = fmt.Sprintf("%+.3f (%+.3f to %+.3f)", d.Estimate, d.Lower, d.Upper)
@@ -97,6 +97,9 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 		}
 		for _, c := range m.Coefficients {
 			row.Coefficients = append(row.Coefficients, [2]string{c.Term, strconv.FormatFloat(c.Value, 'f', 3, 64)})
+		}
+		for _, c := range m.Importance {
+			row.Importance = append(row.Importance, [2]string{c.Term, strconv.FormatFloat(c.Value, 'f', 4, 64)})
 		}
 		v.Models = append(v.Models, row)
 	}
@@ -139,7 +142,8 @@ func (s *Server) handleModelChart(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	name, ext, _ := strings.Cut(chi.URLParam(r, "chart"), ".")
-	if (name != "roc" && name != "pr" && name != "value") || (ext != "svg" && ext != "png") {
+	kind, modelName, _ := strings.Cut(name, "-")
+	if (kind != "roc" && kind != "pr" && kind != "value" && kind != "calibration" && kind != "scores") || (ext != "svg" && ext != "png") {
 		s.fail(w, r, problem.New(problem.NotFound, "there is no such chart"))
 		return
 	}
@@ -150,6 +154,20 @@ func (s *Server) handleModelChart(w http.ResponseWriter, r *http.Request) {
 	}
 	if name == "value" {
 		s.valueChart(w, r, run.ID, rep, ext)
+		return
+	}
+	if kind == "calibration" || kind == "scores" {
+		var mr *analysis.ModelReport
+		for i := range rep.Models {
+			if rep.Models[i].Name == modelName {
+				mr = &rep.Models[i]
+			}
+		}
+		if mr == nil {
+			s.fail(w, r, problem.New(problem.NotFound, "there is no model %q in the latest run", modelName))
+			return
+		}
+		writeChart(w, r, s, ext, modelChart(kind, mr))
 		return
 	}
 	// Lines need one x for every series; each model's curve is drawn on
@@ -363,6 +381,56 @@ func (s *Server) valueChart(w http.ResponseWriter, r *http.Request, runID int64,
 	c.Series = []charts.Series{ser}
 	c.Markers = []charts.Marker{{X: 100 * best.Share, Label: "best: top " + strconv.FormatFloat(100*best.Share, 'f', 0, 64) + "%"}}
 	var buf bytes.Buffer
+	if ext == "png" {
+		err = c.PNG(&buf)
+		w.Header().Set("Content-Type", "image/png")
+	} else {
+		err = c.SVG(&buf)
+		w.Header().Set("Content-Type", "image/svg+xml")
+		w.Header().Set("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'")
+	}
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	buf.WriteTo(w)
+}
+
+// modelChart draws one model's calibration (observed against predicted,
+// with the diagonal) or its score distributions by outcome.
+func modelChart(kind string, m *analysis.ModelReport) charts.Lines {
+	if kind == "calibration" {
+		c := charts.Lines{Title: "Calibration · " + m.Name, XLabel: "Mean predicted probability", YLabel: "Observed share", Percent: true}
+		obs := charts.Series{Name: "observed"}
+		diag := charts.Series{Name: "perfect calibration", Dashed: true}
+		for _, b := range m.Calibration {
+			c.X = append(c.X, b.MeanPredicted)
+			obs.Y = append(obs.Y, b.ObservedRate)
+			diag.Y = append(diag.Y, b.MeanPredicted)
+		}
+		c.Series = []charts.Series{obs, diag}
+		return c
+	}
+	c := charts.Lines{Title: "Scores by outcome · " + m.Name, XLabel: "Calibrated probability of not ordering again", YLabel: "Share of the group", Percent: true}
+	lapsed := charts.Series{Name: "did not order again"}
+	returned := charts.Series{Name: "ordered again", Dashed: true}
+	nl, nr := 0, 0
+	for i := range m.ScoreLapsed {
+		nl += m.ScoreLapsed[i]
+		nr += m.ScoreReturned[i]
+	}
+	for i := range m.ScoreLapsed {
+		c.X = append(c.X, (float64(i)+0.5)/20)
+		lapsed.Y = append(lapsed.Y, float64(m.ScoreLapsed[i])/float64(max(nl, 1)))
+		returned.Y = append(returned.Y, float64(m.ScoreReturned[i])/float64(max(nr, 1)))
+	}
+	c.Series = []charts.Series{lapsed, returned}
+	return c
+}
+
+func writeChart(w http.ResponseWriter, r *http.Request, s *Server, ext string, c charts.Lines) {
+	var buf bytes.Buffer
+	var err error
 	if ext == "png" {
 		err = c.PNG(&buf)
 		w.Header().Set("Content-Type", "image/png")

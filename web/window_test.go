@@ -122,7 +122,10 @@ func TestTrainFromTheDatasetPage(t *testing.T) {
 	if res, b := e.get(c, page+"/models?k=zero"); res.StatusCode != http.StatusOK || !strings.Contains(b, "whole number of customers") {
 		t.Errorf("a bad list size: %d", res.StatusCode)
 	}
-	for _, chart := range []string{"roc.svg", "pr.svg", "roc.png", "value.svg?model=logistic&cost=2&value=40&save=0.2"} {
+	if !strings.Contains(body, "Permutation importance") {
+		t.Error("no permutation importance on the models page")
+	}
+	for _, chart := range []string{"roc.svg", "pr.svg", "roc.png", "value.svg?model=logistic&cost=2&value=40&save=0.2", "calibration-logistic.svg", "scores-baseline.svg"} {
 		if res, _ := e.get(c, page+"/models/"+chart); res.StatusCode != http.StatusOK {
 			t.Errorf("chart %s: %d", chart, res.StatusCode)
 		}

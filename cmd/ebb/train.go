@@ -122,7 +122,7 @@ func printTrainJSON(e env, runID int64, rep *analysis.TrainReport, inUse int64) 
 	}{Run: runID, InUse: inUse, Seconds: rep.Seconds, Rows: rep.Rows}
 	for _, m := range rep.Models {
 		out.Models = append(out.Models, trainModelJSON{ID: m.ID, Name: m.Name, ROCAUC: m.ROCAUC.Estimate, ROCAUCLow: m.ROCAUC.Lower,
-			ROCAUCHigh: m.ROCAUC.Upper, AveragePrecision: m.AveragePrecision.Estimate, Brier: m.Brier.Estimate, LogLoss: m.LogLoss,
+			ROCAUCHigh: m.ROCAUC.Upper, AveragePrecision: m.AveragePrecision.Estimate, Brier: m.Brier.Estimate, LogLoss: m.LogLoss.Estimate,
 			TestRows: rep.Rows["test_evaluated"], Positives: rep.TestPositives})
 	}
 	enc := json.NewEncoder(e.stdout)

@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math/rand/v2"
 	"slices"
 	"strconv"
 	"time"
@@ -80,7 +81,7 @@ type ModelReport struct {
 	ROCAUC           evaluate.Interval  `json:"roc_auc"`
 	AveragePrecision evaluate.Interval  `json:"average_precision"`
 	Brier            evaluate.Interval  `json:"brier"`
-	LogLoss          float64            `json:"log_loss"`
+	LogLoss          evaluate.Interval  `json:"log_loss"`
 	AUCvsBaseline    *evaluate.Interval `json:"auc_vs_baseline,omitempty"`
 	// ROCAUCFirstTime and ROCAUCRepeat split the headline by customers with
 	// one order day and with more (0 when a group has one class only).
@@ -93,6 +94,14 @@ type ModelReport struct {
 	PR          [][2]float64              `json:"pr"`  // (recall, precision)
 	Calibration []evaluate.CalibrationBin `json:"calibration"`
 	Gains       []evaluate.GainsRow       `json:"gains"`
+	// ScoreHistogram counts calibrated scores in 20 bins of width 0.05, of
+	// customers who did not order again (Lapsed) and who did (Returned).
+	ScoreLapsed   []int `json:"score_lapsed"`
+	ScoreReturned []int `json:"score_returned"`
+	// Importance is each feature's permutation importance: the drop in test
+	// ROC AUC when the feature's values are shuffled across rows
+	// (Breiman 2001, cited from memory), largest first.
+	Importance []Coefficient `json:"importance,omitempty"`
 }
 
 // curvePoints bounds the points kept of a curve.
@@ -389,7 +398,7 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 	if mr.Brier, err = evaluate.Bootstrap(scores, labels, clusters, evaluate.Brier, bopt); err != nil {
 		return mr, fmt.Errorf("evaluate %s: %w", name, err)
 	}
-	if mr.LogLoss, err = evaluate.LogLoss(scores, labels); err != nil {
+	if mr.LogLoss, err = evaluate.Bootstrap(scores, labels, clusters, evaluate.LogLoss, bopt); err != nil {
 		return mr, fmt.Errorf("evaluate %s: %w", name, err)
 	}
 	// First-time (one order day) and repeat customers separately.
@@ -486,6 +495,20 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 	}
 	if rk, err := evaluate.NewRanking(scores, labels, keys); err == nil {
 		mr.Gains, _ = rk.Gains(10)
+	}
+	mr.ScoreLapsed, mr.ScoreReturned = make([]int, 20), make([]int, 20)
+	for i, p := range scores {
+		b := min(max(int(p*20), 0), 19)
+		if labels[i] {
+			mr.ScoreLapsed[b]++
+		} else {
+			mr.ScoreReturned[b]++
+		}
+	}
+	if m.Kind == model.KindLogistic {
+		if mr.Importance, err = permutationImportance(m, testF, labels, mr.ROCAUC.Estimate, opt.Seed); err != nil {
+			return mr, fmt.Errorf("evaluate %s: importance: %w", name, err)
+		}
 	}
 	if m.Logistic != nil {
 		for j, term := range m.Logistic.Terms {
@@ -602,4 +625,55 @@ func TrainJob(st *store.Store, cache *Histories, now func() time.Time) jobs.Func
 		}
 		return json.Marshal(TrainJobResult{DatasetID: params.DatasetID, RunID: id, Report: rep})
 	}
+}
+
+// permutationImportance shuffles one feature at a time across the test
+// rows (seeded) and reports how much the model's ROC AUC drops.
+func permutationImportance(m *model.Model, testF *frame.Frame, labels []bool, auc float64, seed uint64) ([]Coefficient, error) {
+	names := testF.Names()
+	cols := make([][]float64, len(names))
+	for j := range names {
+		cols[j] = testF.ColAt(j)
+	}
+	rng := rand.New(rand.NewPCG(seed, 0x7065726d))
+	perm := make([]int, testF.Rows())
+	var out []Coefficient
+	for j, name := range names {
+		if !slices.Contains(m.Features, name) {
+			continue
+		}
+		for i := range perm {
+			perm[i] = i
+		}
+		rng.Shuffle(len(perm), func(a, b int) { perm[a], perm[b] = perm[b], perm[a] })
+		shuffled := make([]float64, len(perm))
+		for i, k := range perm {
+			shuffled[i] = cols[j][k]
+		}
+		swapped := slices.Clone(cols)
+		swapped[j] = shuffled
+		f, err := frame.FromColumns(names, swapped, testF.Labels(), testF.Customers(), testF.Days())
+		if err != nil {
+			return nil, err
+		}
+		s, err := m.Predict(f)
+		if err != nil {
+			return nil, err
+		}
+		a, err := evaluate.ROCAUC(s, labels)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, Coefficient{Term: name, Value: auc - a})
+	}
+	slices.SortStableFunc(out, func(a, b Coefficient) int {
+		switch {
+		case a.Value > b.Value:
+			return -1
+		case a.Value < b.Value:
+			return 1
+		}
+		return 0
+	})
+	return out, nil
 }
