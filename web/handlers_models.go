@@ -112,6 +112,22 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 		}
 	}
 	v.Try = s.tryView(r, d.ID, run.ID, names, defaultModel, rep.HorizonDays)
+	for _, f := range rep.Folds {
+		row := []string{f.TestFrom + " to " + f.TestTo}
+		for _, m := range f.Models {
+			row = append(row, fmt.Sprintf("%s: ROC AUC %s, average precision %s", m.Name, f3(m.ROCAUC), f3(m.AveragePrecision)))
+		}
+		v.Folds = append(v.Folds, row)
+	}
+	for _, m := range stored {
+		var sum analysis.ModelReport
+		json.Unmarshal(m.Summary, &sum)
+		use := ""
+		if m.InUse {
+			use = "in use"
+		}
+		v.History = append(v.History, [5]string{views.Count(int(m.ID)), m.Name, views.Count(int(m.RunID)), f3(sum.ROCAUC.Estimate), use})
+	}
 	s.render(w, r, http.StatusOK, views.Models(v))
 }
 

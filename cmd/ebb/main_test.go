@@ -445,4 +445,13 @@ func TestTrainAndModelCommands(t *testing.T) {
 			t.Errorf("after model use %d: model %d in use = %v", base, m.ID, m.InUse)
 		}
 	}
+	// Rolling-origin folds need room for several embargoed periods: a
+	// 30-day horizon on the demo's three years leaves it.
+	if r := runCLI(t, nil, "window", "--db", db, "--dataset", "demo", "--save", "--days", "60", "--horizon", "30", "--note", "short"); r.err != nil {
+		t.Fatal(r.err)
+	}
+	r = runCLI(t, nil, "train", "--db", db, "--dataset", "demo", "--bootstrap", "20", "--folds", "2")
+	if r.err != nil || !strings.Contains(r.stdout, "earlier fold, test ") || !strings.Contains(r.stdout, "logistic ROC AUC 0.") {
+		t.Errorf("train --folds 2: %v\n%s", r.err, r.stdout)
+	}
 }

@@ -32,7 +32,7 @@ latest slice and recalibrated on it. The dataset needs a saved churn
 definition (ebb window --save).`,
 		setup: func(f *flags) func(context.Context, env, []string) error {
 			var db, dataset, models string
-			var snaps, maxRows, boot int
+			var snaps, maxRows, boot, folds int
 			var seed string
 			var asJSON bool
 			var testRows string
@@ -44,6 +44,7 @@ definition (ebb window --save).`,
 			f.String(&seed, "seed", "1", "N", "random seed of dates, sampling and bootstrap")
 			f.Int(&maxRows, "max-rows", 1_000_000, "ROWS", "cap on snapshot rows (whole customers are kept or left out)")
 			f.Int(&boot, "bootstrap", 200, "N", "bootstrap replicates of each interval")
+			f.Int(&folds, "folds", 1, "K", "rolling-origin folds; the earlier ones are reported separately")
 			f.Bool(&asJSON, "json", "print one JSON object instead of text")
 			return func(ctx context.Context, e env, args []string) error {
 				if len(args) > 0 {
@@ -66,7 +67,7 @@ definition (ebb window --save).`,
 					return fmt.Errorf("train: %w", err)
 				}
 				opt := analysis.TrainOptions{Models: strings.Split(models, ","), Snapshots: snaps, Seed: s, MaxRows: maxRows,
-					Bootstrap: boot, Clock: time.Now}
+					Bootstrap: boot, Folds: folds, Clock: time.Now}
 				if testRows != "" {
 					f, err := os.Create(testRows)
 					if err != nil {
@@ -114,12 +115,13 @@ type trainModelJSON struct {
 
 func printTrainJSON(e env, runID int64, rep *analysis.TrainReport, inUse int64) error {
 	out := struct {
-		Run     int64              `json:"run"`
-		Models  []trainModelJSON   `json:"models"`
-		InUse   int64              `json:"in_use"`
-		Seconds map[string]float64 `json:"seconds"`
-		Rows    map[string]int     `json:"rows"`
-	}{Run: runID, InUse: inUse, Seconds: rep.Seconds, Rows: rep.Rows}
+		Run     int64                 `json:"run"`
+		Models  []trainModelJSON      `json:"models"`
+		InUse   int64                 `json:"in_use"`
+		Seconds map[string]float64    `json:"seconds"`
+		Rows    map[string]int        `json:"rows"`
+		Folds   []analysis.FoldReport `json:"folds,omitempty"`
+	}{Run: runID, InUse: inUse, Seconds: rep.Seconds, Rows: rep.Rows, Folds: rep.Folds}
 	for _, m := range rep.Models {
 		out.Models = append(out.Models, trainModelJSON{ID: m.ID, Name: m.Name, ROCAUC: m.ROCAUC.Estimate, ROCAUCLow: m.ROCAUC.Lower,
 			ROCAUCHigh: m.ROCAUC.Upper, AveragePrecision: m.AveragePrecision.Estimate, Brier: m.Brier.Estimate, LogLoss: m.LogLoss.Estimate,
@@ -156,6 +158,13 @@ func printTrainText(e env, runID int64, rep *analysis.TrainReport, inUse int64) 
 				fmt.Fprintf(e.stdout, "%s, top 10%% on the last test date: %s %s\n", m.Name, l.PrecisionSentence, l.RecallSentence)
 			}
 		}
+	}
+	for _, f := range rep.Folds {
+		fmt.Fprintf(e.stdout, "earlier fold, test %s to %s:", f.TestFrom, f.TestTo)
+		for _, m := range f.Models {
+			fmt.Fprintf(e.stdout, " %s ROC AUC %.3f;", m.Name, m.ROCAUC)
+		}
+		fmt.Fprintln(e.stdout)
 	}
 	if len(rep.Seconds) > 0 {
 		fmt.Fprintf(e.stdout, "seconds per stage: %v\n", rep.Seconds)

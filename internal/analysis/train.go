@@ -30,6 +30,7 @@ type TrainOptions struct {
 	TestSample int      // test rows evaluated (whole customers); default 200,000
 	C          float64  // logistic L2 strength, scikit-learn's C; default 1
 	Bootstrap  int      // replicates of each interval; default 200
+	Folds      int      // rolling-origin folds; 1 (default) = the latest only
 	// Clock times the stages (the CLI passes time.Now); nil times nothing.
 	Clock func() time.Time `json:"-"`
 	// TestRows, when set, receives the evaluated test rows as CSV:
@@ -72,6 +73,19 @@ type ListFigures struct {
 	// Sentences for the last test date, in the standard wording.
 	PrecisionSentence string `json:"precision_sentence"`
 	RecallSentence    string `json:"recall_sentence"`
+}
+
+// FoldReport is one earlier fold: its test period and each model's point
+// figures there.
+type FoldReport struct {
+	TestFrom, TestTo string
+	Models           []FoldModel
+}
+
+// FoldModel is one model's figures on a fold's test period.
+type FoldModel struct {
+	Name                            string
+	ROCAUC, AveragePrecision, Brier float64
 }
 
 // ModelReport is one model's evaluation on the test period.
@@ -128,20 +142,23 @@ type Coefficient struct {
 
 // TrainReport is everything a training run found.
 type TrainReport struct {
-	Dataset          string             `json:"dataset"`
-	Version          int                `json:"version"`
-	Definition       int                `json:"definition"`
-	WindowDays       int                `json:"window_days"`
-	HorizonDays      int                `json:"horizon_days"`
-	Dates            map[string]int     `json:"dates"` // per part
-	RowsBeforeCap    int                `json:"rows_before_cap"`
-	Rows             map[string]int     `json:"rows"` // per part, and "test_evaluated"
-	TestPositives    int                `json:"test_positives"`
-	Models           []ModelReport      `json:"models"`
-	Seconds          map[string]float64 `json:"seconds"`
-	Options          TrainOptions       `json:"-"`
-	RefitOnDates     int                `json:"refit_on_dates"`
-	CalibratedOnDate string             `json:"calibrated_on"`
+	Dataset       string             `json:"dataset"`
+	Version       int                `json:"version"`
+	Definition    int                `json:"definition"`
+	WindowDays    int                `json:"window_days"`
+	HorizonDays   int                `json:"horizon_days"`
+	Dates         map[string]int     `json:"dates"` // per part
+	RowsBeforeCap int                `json:"rows_before_cap"`
+	Rows          map[string]int     `json:"rows"` // per part, and "test_evaluated"
+	TestPositives int                `json:"test_positives"`
+	Models        []ModelReport      `json:"models"`
+	Seconds       map[string]float64 `json:"seconds"`
+	Options       TrainOptions       `json:"-"`
+	RefitOnDates  int                `json:"refit_on_dates"`
+	// Folds are the earlier rolling-origin folds (oldest first), reported
+	// separately; the headline figures are the latest fold's.
+	Folds            []FoldReport `json:"folds,omitempty"`
+	CalibratedOnDate string       `json:"calibrated_on"`
 }
 
 // Train builds snapshots from the dataset's current version and churn
@@ -297,6 +314,14 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		if err := writeTestRows(opt.TestRows, testF, keys, opt.Models, testScores); err != nil {
 			return 0, nil, fmt.Errorf("write test rows: %w", err)
 		}
+	}
+
+	if opt.Folds > 1 {
+		progress(80, "earlier folds")
+		if rep.Folds, err = earlierFolds(fr, tab, dates, def.HorizonDays, def.WindowDays, opt); err != nil {
+			return 0, nil, err
+		}
+		stage("folds")
 	}
 
 	// Refit for lists on every labelled date before the latest slice, and
@@ -675,5 +700,63 @@ func permutationImportance(m *model.Model, testF *frame.Frame, labels []bool, au
 		}
 		return 0
 	})
+	return out, nil
+}
+
+// earlierFolds trains and evaluates every model on each rolling-origin
+// fold before the latest one (point figures, no intervals).
+func earlierFolds(fr *frame.Frame, tab *snapshots.Table, dates []civil.Date, horizon, window int, opt TrainOptions) ([]FoldReport, error) {
+	folds, err := snapshots.Folds(dates, horizon, opt.Folds)
+	if err != nil {
+		return nil, err
+	}
+	var out []FoldReport
+	for _, parts := range folds[:len(folds)-1] {
+		partOf := make(map[civil.Date]snapshots.Part, len(dates))
+		var from, to civil.Date
+		for i, t := range dates {
+			partOf[t] = parts[i]
+			if parts[i] == snapshots.Test {
+				if from == 0 {
+					from = t
+				}
+				to = t
+			}
+		}
+		var train, valid, test []int
+		for r, t := range tab.Date {
+			switch partOf[t] {
+			case snapshots.Train:
+				train = append(train, r)
+			case snapshots.Validation:
+				valid = append(valid, r)
+			case snapshots.Test:
+				test = append(test, r)
+			}
+		}
+		test = sampleCustomers(tab, test, opt.TestSample, opt.Seed)
+		trainF, validF, testF := subset(fr, train), subset(fr, valid), subset(fr, test)
+		labels := boolLabels(testF.Labels())
+		fold := FoldReport{TestFrom: from.String(), TestTo: to.String()}
+		for _, name := range opt.Models {
+			m, err := trainModel(name, trainF, window, opt.C)
+			if err != nil {
+				return nil, err
+			}
+			if err := m.Calibrate(model.CalibrationPlatt, validF); err != nil {
+				return nil, err
+			}
+			scores, err := m.Predict(testF)
+			if err != nil {
+				return nil, err
+			}
+			fm := FoldModel{Name: name}
+			fm.ROCAUC, _ = evaluate.ROCAUC(scores, labels)
+			fm.AveragePrecision, _ = evaluate.AveragePrecision(scores, labels)
+			fm.Brier, _ = evaluate.Brier(scores, labels)
+			fold.Models = append(fold.Models, fm)
+		}
+		out = append(out, fold)
+	}
 	return out, nil
 }
