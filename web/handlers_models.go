@@ -461,3 +461,25 @@ func writeChart(w http.ResponseWriter, r *http.Request, s *Server, ext string, c
 	}
 	buf.WriteTo(w)
 }
+
+// handleTestRows sends the latest training run's evaluated test rows.
+func (s *Server) handleTestRows(w http.ResponseWriter, r *http.Request) {
+	id, err := idParam(r, "id")
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	run, err := s.store.LatestTrainingRun(r.Context(), id)
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	b, err := s.store.TestRows(r.Context(), run.ID)
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
+	w.Header().Set("Content-Disposition", fmt.Sprintf(`attachment; filename="test-rows-run-%d.csv"`, run.ID))
+	w.Write(b)
+}

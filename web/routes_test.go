@@ -37,6 +37,7 @@ var access = map[string]auth.Role{
 	"POST /datasets/{id}/definitions":         auth.Analyst,
 	"GET /datasets/{id}/models":               auth.Analyst,
 	"GET /datasets/{id}/models/{chart}":       auth.Analyst,
+	"GET /datasets/{id}/test-rows.csv":        auth.Analyst,
 	"POST /models/{id}/use":                   auth.Analyst,
 	"POST /datasets/{id}/train":               auth.Analyst,
 	"GET /datasets/{id}/window/{chart}":       auth.Analyst,

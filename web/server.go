@@ -43,6 +43,7 @@ type Store interface {
 	ModelByID(ctx context.Context, id int64) (store.StoredModel, error)
 	UseModel(ctx context.Context, id int64) error
 	RankedLists(ctx context.Context, runID int64, model string) ([]store.RankedList, error)
+	TestRows(ctx context.Context, runID int64) ([]byte, error)
 }
 
 // Jobs is what the handlers need from the job runner.
@@ -130,6 +131,7 @@ func (s *Server) routes() chi.Router {
 		r.Post("/datasets/{id}/train", s.handleTrain)
 		r.Get("/datasets/{id}/models", s.handleModels)
 		r.Get("/datasets/{id}/models/{chart}", s.handleModelChart)
+		r.Get("/datasets/{id}/test-rows.csv", s.handleTestRows)
 		r.Post("/models/{id}/use", s.handleModelUse)
 		r.Get("/datasets/{id}/window/{chart}", s.handleWindowChart)
 		r.Get("/uploads/new", s.handleUploadForm)

@@ -122,6 +122,9 @@ func TestTrainFromTheDatasetPage(t *testing.T) {
 	if res, b := e.get(c, page+"/models?k=zero"); res.StatusCode != http.StatusOK || !strings.Contains(b, "whole number of customers") {
 		t.Errorf("a bad list size: %d", res.StatusCode)
 	}
+	if res, csv := e.get(c, page+"/test-rows.csv"); res.StatusCode != http.StatusOK || !strings.HasPrefix(csv, "customer_id,snapshot_date,label,baseline,logistic\n") {
+		t.Errorf("test rows download: %d %.60q", res.StatusCode, csv)
+	}
 	if !strings.Contains(body, "Permutation importance") {
 		t.Error("no permutation importance on the models page")
 	}

@@ -454,4 +454,10 @@ func TestTrainAndModelCommands(t *testing.T) {
 	if r.err != nil || !strings.Contains(r.stdout, "earlier fold, test ") || !strings.Contains(r.stdout, "logistic ROC AUC 0.") {
 		t.Errorf("train --folds 2: %v\n%s", r.err, r.stdout)
 	}
+	if r := runCLI(t, nil, "train", "--db", db, "--dataset", "demo", "--bootstrap", "20", "--calibration", "isotonic"); r.err != nil {
+		t.Errorf("train --calibration isotonic: %v", r.err)
+	}
+	if r := runCLI(t, nil, "train", "--db", db, "--dataset", "demo", "--calibration", "magic"); r.err == nil || !strings.Contains(r.err.Error(), `unknown calibration "magic"`) {
+		t.Errorf("train --calibration magic: %v", r.err)
+	}
 }

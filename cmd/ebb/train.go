@@ -35,7 +35,7 @@ definition (ebb window --save).`,
 			var snaps, maxRows, boot, folds int
 			var seed string
 			var asJSON bool
-			var testRows string
+			var testRows, calibration string
 			f.String(&db, "db", "ebb.db", "FILE", "SQLite database file")
 			f.String(&dataset, "dataset", "", "NAME", "dataset to train on")
 			f.String(&testRows, "test-rows", "", "FILE", "write the evaluated test rows as CSV: customer_id,snapshot_date,label, then one score column per model")
@@ -45,6 +45,7 @@ definition (ebb window --save).`,
 			f.Int(&maxRows, "max-rows", 1_000_000, "ROWS", "cap on snapshot rows (whole customers are kept or left out)")
 			f.Int(&boot, "bootstrap", 200, "N", "bootstrap replicates of each interval")
 			f.Int(&folds, "folds", 1, "K", "rolling-origin folds; the earlier ones are reported separately")
+			f.String(&calibration, "calibration", "platt", "KIND", "calibration fitted on the validation slice: platt or isotonic")
 			f.Bool(&asJSON, "json", "print one JSON object instead of text")
 			return func(ctx context.Context, e env, args []string) error {
 				if len(args) > 0 {
@@ -67,7 +68,7 @@ definition (ebb window --save).`,
 					return fmt.Errorf("train: %w", err)
 				}
 				opt := analysis.TrainOptions{Models: strings.Split(models, ","), Snapshots: snaps, Seed: s, MaxRows: maxRows,
-					Bootstrap: boot, Folds: folds, Clock: time.Now}
+					Bootstrap: boot, Folds: folds, Calibration: calibration, Clock: time.Now}
 				if testRows != "" {
 					f, err := os.Create(testRows)
 					if err != nil {

@@ -1,6 +1,7 @@
 package analysis
 
 import (
+	"bytes"
 	"context"
 	"encoding/csv"
 	"encoding/json"
@@ -31,6 +32,9 @@ type TrainOptions struct {
 	C          float64  // logistic L2 strength, scikit-learn's C; default 1
 	Bootstrap  int      // replicates of each interval; default 200
 	Folds      int      // rolling-origin folds; 1 (default) = the latest only
+	// Calibration is "platt" (default) or "isotonic", fitted on the
+	// validation slice.
+	Calibration string
 	// Clock times the stages (the CLI passes time.Now); nil times nothing.
 	Clock func() time.Time `json:"-"`
 	// TestRows, when set, receives the evaluated test rows as CSV:
@@ -60,6 +64,9 @@ func (o TrainOptions) resolved() TrainOptions {
 	}
 	if o.Bootstrap == 0 {
 		o.Bootstrap = evaluate.DefaultReplicates
+	}
+	if o.Calibration == "" {
+		o.Calibration = string(model.CalibrationPlatt)
 	}
 	return o
 }
@@ -170,6 +177,9 @@ type TrainReport struct {
 func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int64, opt TrainOptions, by string, now time.Time,
 	progress func(pct float64, note string)) (int64, *TrainReport, error) {
 	opt = opt.resolved()
+	if opt.Calibration != string(model.CalibrationPlatt) && opt.Calibration != string(model.CalibrationIsotonic) {
+		return 0, nil, problem.New(problem.Invalid, "unknown calibration %q (want platt or isotonic)", opt.Calibration)
+	}
 	if progress == nil {
 		progress = func(float64, string) {}
 	}
@@ -280,7 +290,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		if err != nil {
 			return 0, nil, err
 		}
-		if err := m.Calibrate(model.CalibrationPlatt, validF); err != nil {
+		if err := m.Calibrate(model.CalibrationKind(opt.Calibration), validF); err != nil {
 			return 0, nil, err
 		}
 		stage("train_" + name)
@@ -306,12 +316,18 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		stage("evaluate_" + name)
 	}
 
+	// The evaluated rows are kept with the run (for the models page's
+	// download) and written to TestRows when asked.
+	var testRowsCSV bytes.Buffer
+	keys, err := st.CustomerKeys(ctx, d.ID)
+	if err != nil {
+		return 0, nil, err
+	}
+	if err := writeTestRows(&testRowsCSV, testF, keys, opt.Models, testScores); err != nil {
+		return 0, nil, fmt.Errorf("write test rows: %w", err)
+	}
 	if opt.TestRows != nil {
-		keys, err := st.CustomerKeys(ctx, d.ID)
-		if err != nil {
-			return 0, nil, err
-		}
-		if err := writeTestRows(opt.TestRows, testF, keys, opt.Models, testScores); err != nil {
+		if _, err := opt.TestRows.Write(testRowsCSV.Bytes()); err != nil {
 			return 0, nil, fmt.Errorf("write test rows: %w", err)
 		}
 	}
@@ -338,7 +354,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		if err != nil {
 			return 0, nil, err
 		}
-		if err := m.Calibrate(model.CalibrationPlatt, sliceF); err != nil {
+		if err := m.Calibrate(model.CalibrationKind(opt.Calibration), sliceF); err != nil {
 			return 0, nil, err
 		}
 		m.Meta = model.Meta{ChurnDefinitionVersion: strconv.Itoa(def.Seq), DatasetVersion: strconv.Itoa(d.Seq), Seed: opt.Seed}
@@ -369,6 +385,9 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		rep.Models[i].ID = ids[k]
 	}
 	if err := st.InsertRankedLists(ctx, runID, ranked); err != nil {
+		return 0, nil, err
+	}
+	if err := st.SaveTestRows(ctx, runID, testRowsCSV.Bytes()); err != nil {
 		return 0, nil, err
 	}
 	progress(100, "done")
@@ -743,7 +762,7 @@ func earlierFolds(fr *frame.Frame, tab *snapshots.Table, dates []civil.Date, hor
 			if err != nil {
 				return nil, err
 			}
-			if err := m.Calibrate(model.CalibrationPlatt, validF); err != nil {
+			if err := m.Calibrate(model.CalibrationKind(opt.Calibration), validF); err != nil {
 				return nil, err
 			}
 			scores, err := m.Predict(testF)

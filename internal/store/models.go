@@ -189,3 +189,24 @@ func (s *Store) RankedLists(ctx context.Context, runID int64, model string) ([]R
 	}
 	return out, rows.Err()
 }
+
+// SaveTestRows stores a run's evaluated test rows as CSV.
+func (s *Store) SaveTestRows(ctx context.Context, runID int64, csv []byte) error {
+	if _, err := s.w.ExecContext(ctx, `INSERT OR REPLACE INTO run_test_rows (run_id, csv) VALUES (?, ?)`, runID, csv); err != nil {
+		return fmt.Errorf("store test rows of run %d: %w", runID, err)
+	}
+	return nil
+}
+
+// TestRows returns a run's evaluated test rows as CSV.
+func (s *Store) TestRows(ctx context.Context, runID int64) ([]byte, error) {
+	var b []byte
+	err := s.r.QueryRowContext(ctx, `SELECT csv FROM run_test_rows WHERE run_id = ?`, runID).Scan(&b)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, problem.New(problem.NotFound, "this training run kept no test rows")
+	}
+	if err != nil {
+		return nil, fmt.Errorf("test rows of run %d: %w", runID, err)
+	}
+	return b, nil
+}
