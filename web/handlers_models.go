@@ -74,6 +74,13 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 	v.Rows = fmt.Sprintf("Snapshot rows: %s for training, %s for validation, %s test rows evaluated, of whom %s did not order again within %d days.",
 		views.Count(rep.Rows["train"]), views.Count(rep.Rows["validation"]), views.Count(rep.Rows["test_evaluated"]),
 		views.Count(rep.TestPositives), rep.HorizonDays)
+	if b := rep.BGNBD; b != nil {
+		v.Rows += fmt.Sprintf(" The feature p_active_bgnbd uses BG/NBD fitted on orders through %s (r = %.3f, α = %.2f, a = %.3f, b = %.3f), before every snapshot date.",
+			b.FittedThrough, b.Params.R, b.Params.Alpha, b.Params.A, b.Params.B)
+	}
+	for _, n := range rep.Notes {
+		v.Rows += " " + n
+	}
 	for _, m := range rep.Models {
 		row := views.ModelRow{ID: idOf[m.Name], Name: m.Name, InUse: inUse[m.Name],
 			AUC: f3(m.ROCAUC.Estimate), AUCBand: fmt.Sprintf("%s–%s", f3(m.ROCAUC.Lower), f3(m.ROCAUC.Upper)),

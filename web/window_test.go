@@ -125,6 +125,9 @@ func TestTrainFromTheDatasetPage(t *testing.T) {
 	if res, csv := e.get(c, page+"/test-rows.csv"); res.StatusCode != http.StatusOK || !strings.HasPrefix(csv, "customer_id,snapshot_date,label,baseline,logistic\n") {
 		t.Errorf("test rows download: %d %.60q", res.StatusCode, csv)
 	}
+	if !strings.Contains(body, "The feature p_active_bgnbd uses BG/NBD fitted on orders through") {
+		t.Error("the models page does not say how the BG/NBD feature was fitted")
+	}
 	if !strings.Contains(body, "Permutation importance") {
 		t.Error("no permutation importance on the models page")
 	}

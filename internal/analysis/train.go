@@ -12,6 +12,7 @@ import (
 	"strconv"
 	"time"
 
+	"ebb/internal/bgnbd"
 	"ebb/internal/civil"
 	"ebb/internal/evaluate"
 	"ebb/internal/frame"
@@ -80,6 +81,14 @@ type ListFigures struct {
 	// Sentences for the last test date, in the standard wording.
 	PrecisionSentence string `json:"precision_sentence"`
 	RecallSentence    string `json:"recall_sentence"`
+}
+
+// BGNBDFit records the BG/NBD parameters behind p_active_bgnbd and the
+// last day of the orders they were fitted on.
+type BGNBDFit struct {
+	Params        bgnbd.Params `json:"params"`
+	FittedThrough string       `json:"fitted_through"`
+	LogLikelihood float64      `json:"log_likelihood"`
 }
 
 // FoldReport is one earlier fold: its test period and each model's point
@@ -162,6 +171,9 @@ type TrainReport struct {
 	Seconds       map[string]float64 `json:"seconds"`
 	Options       TrainOptions       `json:"-"`
 	RefitOnDates  int                `json:"refit_on_dates"`
+	BGNBD         *BGNBDFit          `json:"bgnbd,omitempty"`
+	Notes         []string           `json:"notes,omitempty"`
+	Features      []string           `json:"features"`
 	// Folds are the earlier rolling-origin folds (oldest first), reported
 	// separately; the headline figures are the latest fold's.
 	Folds            []FoldReport `json:"folds,omitempty"`
@@ -223,12 +235,21 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	if err != nil {
 		return 0, nil, err
 	}
-	tab, err := snapshots.Build(h, snapshots.Options{WindowDays: def.WindowDays, HorizonDays: def.HorizonDays, Dates: dates,
-		MaxRows: opt.MaxRows, Seed: opt.Seed})
+	// BG/NBD parameters for the p_active_bgnbd feature, fitted on orders up
+	// to the earliest snapshot date, so no date's feature sees its future.
+	sopt := snapshots.Options{WindowDays: def.WindowDays, HorizonDays: def.HorizonDays, Dates: dates, MaxRows: opt.MaxRows, Seed: opt.Seed}
+	if params, info, err := snapshots.FitBGNBD(h, dates[0]); err == nil && info.Converged {
+		sopt.BGNBD = &params
+		rep.BGNBD = &BGNBDFit{Params: params, FittedThrough: dates[0].String(), LogLikelihood: info.LogLik}
+	} else {
+		rep.Notes = append(rep.Notes, "BG/NBD could not be fitted on the orders before the first snapshot date, so p_active_bgnbd is left out.")
+	}
+	tab, err := snapshots.Build(h, sopt)
 	if err != nil {
 		return 0, nil, err
 	}
 	rep.RowsBeforeCap = tab.RowsBeforeCap
+	rep.Features = tab.Names
 	partOf := make(map[civil.Date]snapshots.Part, len(dates))
 	for i, t := range dates {
 		partOf[t] = parts[i]
@@ -424,7 +445,7 @@ func trainModel(name string, train *frame.Frame, windowDays int, c float64) (*mo
 	case "baseline":
 		return model.TrainBaseline("recency_days", float64(windowDays))
 	case "logistic":
-		return model.TrainLogistic(train, snapshots.Features, model.LogisticOptions{C: c})
+		return model.TrainLogistic(train, train.Names(), model.LogisticOptions{C: c})
 	}
 	return nil, problem.New(problem.Invalid, "unknown model %q (want baseline or logistic)", name)
 }

@@ -1,6 +1,9 @@
 package snapshots
 
 import (
+	"slices"
+
+	"ebb/internal/bgnbd"
 	"ebb/internal/civil"
 	"ebb/internal/history"
 	"ebb/internal/problem"
@@ -19,6 +22,10 @@ type Options struct {
 	// Contacted, when set, reports customers contacted by a published list
 	// in (t − H, t]; their rows are left out (their outcome was treated).
 	Contacted func(customer int, t civil.Date) bool
+	// BGNBD, when set, adds the p_active_bgnbd feature under these
+	// parameters, which must come from orders on or before the earliest
+	// date (FitBGNBD).
+	BGNBD *bgnbd.Params
 }
 
 // Table is the snapshot rows: one per (active customer, date), with the
@@ -61,7 +68,11 @@ func Build(h *history.History, opt Options) (*Table, error) {
 			}
 		}
 	}
-	tab := &Table{Names: Features, RowsBeforeCap: total, SampledShare: 1}
+	names := Features
+	if opt.BGNBD != nil {
+		names = append(slices.Clone(Features), FeatureBGNBD)
+	}
+	tab := &Table{Names: names, RowsBeforeCap: total, SampledShare: 1}
 	keep := func(int) bool { return true }
 	if opt.MaxRows > 0 && total > opt.MaxRows {
 		share := float64(opt.MaxRows) / float64(total)
@@ -73,7 +84,7 @@ func Build(h *history.History, opt Options) (*Table, error) {
 	if opt.MaxRows == 0 {
 		capRows = total
 	}
-	tab.Cols = make([][]float32, featureCount)
+	tab.Cols = make([][]float32, len(names))
 	for j := range tab.Cols {
 		tab.Cols[j] = make([]float32, 0, capRows)
 	}
@@ -92,6 +103,9 @@ func Build(h *history.History, opt Options) (*Table, error) {
 			row(h, c, t, buf)
 			for j, v := range buf {
 				tab.Cols[j] = append(tab.Cols[j], v)
+			}
+			if opt.BGNBD != nil {
+				tab.Cols[featureCount] = append(tab.Cols[featureCount], pActive(opt.BGNBD, h, c, t))
 			}
 			var y uint8
 			if labelled && h.CountIn(c, t, t+h2) == 0 {

@@ -217,8 +217,21 @@ func TestNoFeatureReadsTheFuture(t *testing.T) {
 			future = append(future, [3]float64{float64(rng.IntN(customers)), float64(tday + 1 + rng.IntN(300)), 7})
 		}
 		opt := Options{WindowDays: 120, HorizonDays: 90, Dates: []civil.Date{base + civil.Date(tday)}}
-		a, _ := Build(build(t, before, customers, base+1400), opt)
-		b, _ := Build(build(t, future, customers, base+1400), opt)
+		ha, hb := build(t, before, customers, base+1400), build(t, future, customers, base+1400)
+		// The BG/NBD feature too: its parameters are fitted on orders up to
+		// the earliest snapshot date, here t, on each history.
+		pa, _, errA := FitBGNBD(ha, opt.Dates[0])
+		pb, _, errB := FitBGNBD(hb, opt.Dates[0])
+		if errA != nil || errB != nil {
+			t.Fatalf("fit BG/NBD: %v %v", errA, errB)
+		}
+		optA, optB := opt, opt
+		optA.BGNBD, optB.BGNBD = &pa, &pb
+		a, _ := Build(ha, optA)
+		b, _ := Build(hb, optB)
+		if a.Names[len(a.Names)-1] != FeatureBGNBD {
+			t.Fatalf("names = %v, want %s last", a.Names, FeatureBGNBD)
+		}
 		if a.Rows() != b.Rows() {
 			t.Fatalf("t=%d: %d rows without the future, %d with it", tday, a.Rows(), b.Rows())
 		}
