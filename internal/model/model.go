@@ -21,6 +21,7 @@ type Kind string
 const (
 	KindBaseline Kind = "recency_baseline"
 	KindLogistic Kind = "logistic"
+	KindTrees    Kind = "gradient_boosted_trees"
 )
 
 // Baseline is the recency rule: score = recency / X ("quiet longest
@@ -151,6 +152,8 @@ type Model struct {
 	Standardizer *frame.Standardizer
 	Baseline     *Baseline
 	Logistic     *Logistic
+	// Trees (gradient-boosted trees only) reads Features unstandardized.
+	Trees *Trees
 	// Calibration is nil for an uncalibrated model.
 	Calibration *Calibration
 	Meta        Meta
@@ -169,6 +172,8 @@ func (m *Model) Score(f *frame.Frame) ([]float64, error) {
 			return nil, fmt.Errorf("score %s model: %w", m.Kind, err)
 		}
 		return m.Logistic.Predict(z, nil)
+	case KindTrees:
+		return m.Trees.Predict(f, nil)
 	}
 	return nil, fmt.Errorf("score: unknown model kind %q", m.Kind)
 }
@@ -190,7 +195,7 @@ func (m *Model) Predict(f *frame.Frame) ([]float64, error) {
 func (m *Model) Validate() error {
 	switch m.Kind {
 	case KindBaseline:
-		if m.Baseline == nil || m.Logistic != nil || m.Standardizer != nil {
+		if m.Baseline == nil || m.Logistic != nil || m.Standardizer != nil || m.Trees != nil {
 			return fmt.Errorf("model %q: parameters missing or mixed", m.Kind)
 		}
 		if err := m.Baseline.validate(); err != nil {
@@ -200,7 +205,7 @@ func (m *Model) Validate() error {
 			return fmt.Errorf("model %q: features %q, want [%q]", m.Kind, m.Features, m.Baseline.Column)
 		}
 	case KindLogistic:
-		if m.Logistic == nil || m.Standardizer == nil || m.Baseline != nil {
+		if m.Logistic == nil || m.Standardizer == nil || m.Baseline != nil || m.Trees != nil {
 			return fmt.Errorf("model %q: parameters missing or mixed", m.Kind)
 		}
 		if err := m.Standardizer.Validate(); err != nil {
@@ -220,6 +225,16 @@ func (m *Model) Validate() error {
 			if !out[t] {
 				return fmt.Errorf("model %q: term %q is not a standardized feature", m.Kind, t)
 			}
+		}
+	case KindTrees:
+		if m.Trees == nil || m.Logistic != nil || m.Standardizer != nil || m.Baseline != nil {
+			return fmt.Errorf("model %q: parameters missing or mixed", m.Kind)
+		}
+		if err := m.Trees.validate(); err != nil {
+			return err
+		}
+		if !equalStrings(m.Features, m.Trees.Features) {
+			return fmt.Errorf("model %q: features %q differ from the trees' %q", m.Kind, m.Features, m.Trees.Features)
 		}
 	default:
 		return fmt.Errorf("model: unknown kind %q", m.Kind)
@@ -257,6 +272,7 @@ type savedModel struct {
 	Standardizer *frame.Standardizer `json:"standardizer,omitempty"`
 	Baseline     *Baseline           `json:"baseline,omitempty"`
 	Logistic     *savedLogistic      `json:"logistic,omitempty"`
+	Trees        *Trees              `json:"trees,omitempty"`
 	Calibration  *Calibration        `json:"calibration,omitempty"`
 	Meta         Meta                `json:"meta"`
 }
@@ -274,6 +290,7 @@ func (m *Model) Save() ([]byte, error) {
 		Features:     m.Features,
 		Standardizer: m.Standardizer,
 		Baseline:     m.Baseline,
+		Trees:        m.Trees,
 		Calibration:  m.Calibration,
 		Meta:         m.Meta,
 	}
@@ -304,6 +321,7 @@ func Load(data []byte) (*Model, error) {
 		Features:     s.Features,
 		Standardizer: s.Standardizer,
 		Baseline:     s.Baseline,
+		Trees:        s.Trees,
 		Calibration:  s.Calibration,
 		Meta:         s.Meta,
 	}
