@@ -378,7 +378,7 @@ func TestTrainAndModelCommands(t *testing.T) {
 		t.Fatal(r.err)
 	}
 	rows := filepath.Join(dir, "test-rows.csv")
-	r := runCLI(t, nil, "train", "--db", db, "--dataset", "demo", "--bootstrap", "50", "--json", "--test-rows", rows)
+	r := runCLI(t, nil, "train", "--db", db, "--dataset", "demo", "--models", "baseline,logistic", "--bootstrap", "50", "--json", "--test-rows", rows)
 	if r.err != nil {
 		t.Fatalf("train: %v\n%s", r.err, r.stdout)
 	}

@@ -25,7 +25,7 @@ import (
 
 // TrainOptions configure a training run. Zero values take the defaults.
 type TrainOptions struct {
-	Models     []string // "baseline", "logistic"; default both
+	Models     []string // "baseline", "logistic", "trees"; default all three
 	Snapshots  int      // snapshot dates; default 100
 	Seed       uint64   // default 1
 	MaxRows    int      // row cap (whole customers kept); default 1,000,000
@@ -46,7 +46,7 @@ type TrainOptions struct {
 
 func (o TrainOptions) resolved() TrainOptions {
 	if len(o.Models) == 0 {
-		o.Models = []string{"baseline", "logistic"}
+		o.Models = []string{"baseline", "logistic", "trees"}
 	}
 	if o.Snapshots == 0 {
 		o.Snapshots = 100
@@ -299,6 +299,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	bopt := evaluate.BootstrapOptions{Replicates: opt.Bootstrap, Seed1: opt.Seed, Seed2: 0x65626221}
 	var baselineScores []float64
 	var ranked []store.RankedList
+	rounds := map[string]int{}
 	testScores := map[string][]float64{}
 	type trained struct {
 		name string
@@ -307,9 +308,12 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	var models []trained
 	for i, name := range opt.Models {
 		progress(20+60*float64(i)/float64(len(opt.Models)), "training "+name)
-		m, err := trainModel(name, trainF, def.WindowDays, opt.C)
+		m, err := trainModel(name, trainF, validF, def.WindowDays, opt.C, opt.Seed, 0)
 		if err != nil {
 			return 0, nil, err
+		}
+		if m.Trees != nil {
+			rounds[name] = len(m.Trees.Trees)
 		}
 		if err := m.Calibrate(model.CalibrationKind(opt.Calibration), validF); err != nil {
 			return 0, nil, err
@@ -371,7 +375,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	order := bestFirst(rep.Models)
 	for _, i := range order {
 		t := models[i]
-		m, err := trainModel(t.name, refitF, def.WindowDays, opt.C)
+		m, err := trainModel(t.name, refitF, nil, def.WindowDays, opt.C, opt.Seed, max(rounds[t.name], 1))
 		if err != nil {
 			return 0, nil, err
 		}
@@ -440,14 +444,23 @@ func bestFirst(ms []ModelReport) []int {
 	return idx
 }
 
-func trainModel(name string, train *frame.Frame, windowDays int, c float64) (*model.Model, error) {
+// trainModel fits one model. valid, when given, early-stops the trees;
+// rounds, when positive, fixes their number instead (the refit uses the
+// rounds the evaluated fit kept).
+func trainModel(name string, train, valid *frame.Frame, windowDays int, c float64, seed uint64, rounds int) (*model.Model, error) {
 	switch name {
 	case "baseline":
 		return model.TrainBaseline("recency_days", float64(windowDays))
 	case "logistic":
 		return model.TrainLogistic(train, train.Names(), model.LogisticOptions{C: c})
+	case "trees":
+		opt := model.TreesOptions{Seed: seed}
+		if rounds > 0 {
+			opt.MaxIter, valid = rounds, nil
+		}
+		return model.TrainTrees(train, train.Names(), valid, opt)
 	}
-	return nil, problem.New(problem.Invalid, "unknown model %q (want baseline or logistic)", name)
+	return nil, problem.New(problem.Invalid, "unknown model %q (want baseline, logistic or trees)", name)
 }
 
 func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.Frame, labels []bool, clusters []int, horizon int,
@@ -774,7 +787,7 @@ func earlierFolds(fr *frame.Frame, tab *snapshots.Table, dates []civil.Date, hor
 		labels := boolLabels(testF.Labels())
 		fold := FoldReport{TestFrom: from.String(), TestTo: to.String()}
 		for _, name := range opt.Models {
-			m, err := trainModel(name, trainF, window, opt.C)
+			m, err := trainModel(name, trainF, validF, window, opt.C, opt.Seed, 0)
 			if err != nil {
 				return nil, err
 			}
