@@ -1,7 +1,6 @@
 package web
 
 import (
-	"bytes"
 	"fmt"
 	"net/http"
 	"strings"
@@ -153,29 +152,11 @@ func (s *Server) handleMonthlyChart(w http.ResponseWriter, r *http.Request) {
 		s.fail(w, r, err)
 		return
 	}
-	b := monthlyBars(d, st)
-	var buf bytes.Buffer
-	png := strings.HasSuffix(r.URL.Path, ".png")
-	if png {
-		err = b.PNG(&buf)
-	} else {
-		err = b.SVG(&buf)
+	ext := "svg"
+	if strings.HasSuffix(r.URL.Path, ".png") {
+		ext = "png"
 	}
-	if err != nil {
-		s.fail(w, r, err)
-		return
-	}
-	if png {
-		w.Header().Set("Content-Type", "image/png")
-		w.Header().Set("Content-Disposition", fmt.Sprintf(`attachment; filename="orders-per-month-%d.png"`, d.ID))
-	} else {
-		w.Header().Set("Content-Type", "image/svg+xml")
-		// gonum's SVG styles its text with inline style attributes; opened on
-		// its own it needs them, and it runs no script either way.
-		w.Header().Set("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'")
-	}
-	w.Header().Set("Cache-Control", "private, max-age=60")
-	buf.WriteTo(w)
+	s.sendChart(w, r, ext, fmt.Sprintf("orders-per-month-%d", d.ID), monthlyBars(d, st))
 }
 
 func monthlyBars(d store.Dataset, st store.VersionStats) charts.Bars {

@@ -1,7 +1,6 @@
 package web
 
 import (
-	"bytes"
 	"encoding/json"
 	"fmt"
 	"net/http"
@@ -190,7 +189,7 @@ func (s *Server) handleModelChart(w http.ResponseWriter, r *http.Request) {
 			s.fail(w, r, problem.New(problem.NotFound, "there is no model %q in the latest run", modelName))
 			return
 		}
-		writeChart(w, r, s, ext, modelChart(kind, mr))
+		s.sendChart(w, r, ext, name, modelChart(kind, mr))
 		return
 	}
 	// Lines need one x for every series; each model's curve is drawn on
@@ -212,20 +211,7 @@ func (s *Server) handleModelChart(w http.ResponseWriter, r *http.Request) {
 		}
 		c.Series = append(c.Series, charts.Series{Name: m.Name, Y: interpolate(pts, grid), Dashed: m.Name == "baseline"})
 	}
-	var buf bytes.Buffer
-	if ext == "png" {
-		err = c.PNG(&buf)
-		w.Header().Set("Content-Type", "image/png")
-	} else {
-		err = c.SVG(&buf)
-		w.Header().Set("Content-Type", "image/svg+xml")
-		w.Header().Set("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'")
-	}
-	if err != nil {
-		s.fail(w, r, err)
-		return
-	}
-	buf.WriteTo(w)
+	s.sendChart(w, r, ext, name, c)
 }
 
 // interpolate reads a curve given as (x, y) points with x ascending or
@@ -403,20 +389,7 @@ func (s *Server) valueChart(w http.ResponseWriter, r *http.Request, runID int64,
 	}
 	c.Series = []charts.Series{ser}
 	c.Markers = []charts.Marker{{X: 100 * best.Share, Label: "best: top " + strconv.FormatFloat(100*best.Share, 'f', 0, 64) + "%"}}
-	var buf bytes.Buffer
-	if ext == "png" {
-		err = c.PNG(&buf)
-		w.Header().Set("Content-Type", "image/png")
-	} else {
-		err = c.SVG(&buf)
-		w.Header().Set("Content-Type", "image/svg+xml")
-		w.Header().Set("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'")
-	}
-	if err != nil {
-		s.fail(w, r, err)
-		return
-	}
-	buf.WriteTo(w)
+	s.sendChart(w, r, ext, "expected-value-"+f.model, c)
 }
 
 // modelChart draws one model's calibration (observed against predicted,
@@ -449,24 +422,6 @@ func modelChart(kind string, m *analysis.ModelReport) charts.Lines {
 	}
 	c.Series = []charts.Series{lapsed, returned}
 	return c
-}
-
-func writeChart(w http.ResponseWriter, r *http.Request, s *Server, ext string, c charts.Lines) {
-	var buf bytes.Buffer
-	var err error
-	if ext == "png" {
-		err = c.PNG(&buf)
-		w.Header().Set("Content-Type", "image/png")
-	} else {
-		err = c.SVG(&buf)
-		w.Header().Set("Content-Type", "image/svg+xml")
-		w.Header().Set("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'")
-	}
-	if err != nil {
-		s.fail(w, r, err)
-		return
-	}
-	buf.WriteTo(w)
 }
 
 // handleTestRows sends the latest training run's evaluated test rows.

@@ -1,9 +1,7 @@
 package web
 
 import (
-	"bytes"
 	"fmt"
-	"io"
 	"net/http"
 	"strconv"
 	"strings"
@@ -44,43 +42,25 @@ func (s *Server) handleWindowChart(w http.ResponseWriter, r *http.Request) {
 	if defs, err := s.store.Definitions(r.Context(), id); err == nil && len(defs) > 0 {
 		chosen = defs[0].WindowDays
 	}
-	var buf bytes.Buffer
+	var c chart
 	switch name {
 	case "gaps":
 		h := gapHistogram(rep, r.URL.Query().Get("log") == "1")
 		h.Markers = withChosen(h.Markers, chosen, h.Edges[len(h.Edges)-1])
-		err = drawChart(&buf, ext, h.SVG, h.PNG)
+		c = h
 	case "repurchase":
-		c := repurchaseCurve(rep)
-		c.Markers = withChosen(c.Markers, chosen, c.MaxX)
-		err = drawChart(&buf, ext, c.SVG, c.PNG)
+		st := repurchaseCurve(rep)
+		st.Markers = withChosen(st.Markers, chosen, st.MaxX)
+		c = st
 	case "tradeoff":
-		c := tradeoffLines(rep)
-		c.Markers = withChosen(c.Markers, chosen, float64(gaps.MaxX))
-		err = drawChart(&buf, ext, c.SVG, c.PNG)
+		l := tradeoffLines(rep)
+		l.Markers = withChosen(l.Markers, chosen, float64(gaps.MaxX))
+		c = l
 	default:
-		err = problem.New(problem.NotFound, "there is no such chart")
-	}
-	if err != nil {
-		s.fail(w, r, err)
+		s.fail(w, r, problem.New(problem.NotFound, "there is no such chart"))
 		return
 	}
-	if ext == "png" {
-		w.Header().Set("Content-Type", "image/png")
-		w.Header().Set("Content-Disposition", fmt.Sprintf(`attachment; filename="%s-%d.png"`, name, id))
-	} else {
-		w.Header().Set("Content-Type", "image/svg+xml")
-		w.Header().Set("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'")
-	}
-	w.Header().Set("Cache-Control", "private, max-age=60")
-	buf.WriteTo(w)
-}
-
-func drawChart(buf *bytes.Buffer, ext string, svg, png func(io.Writer) error) error {
-	if ext == "png" {
-		return png(buf)
-	}
-	return svg(buf)
+	s.sendChart(w, r, ext, fmt.Sprintf("%s-%d", name, id), c)
 }
 
 // windowMarkers marks each method's X that falls on the axis (up to

@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"crypto/rand"
 	"encoding/hex"
+	"io"
+	"mime"
 	"net/http"
 	"net/url"
 	"strconv"
@@ -124,4 +126,37 @@ func idParam(r *http.Request, name string) (int64, error) {
 // seeOther redirects after a POST (POST → redirect → GET).
 func seeOther(w http.ResponseWriter, r *http.Request, to string) {
 	http.Redirect(w, r, to, http.StatusSeeOther)
+}
+
+// chart is any of internal/charts' figures.
+type chart interface {
+	SVG(w io.Writer) error
+	PNG(w io.Writer) error
+}
+
+// sendChart draws c as SVG or PNG (ext) into a buffer and sends it; a PNG
+// is offered as a download named name.png. gonum's SVG styles its text with
+// inline style attributes, so SVG responses carry their own narrow policy
+// (no script either way).
+func (s *Server) sendChart(w http.ResponseWriter, r *http.Request, ext, name string, c chart) {
+	var buf bytes.Buffer
+	var err error
+	if ext == "png" {
+		err = c.PNG(&buf)
+	} else {
+		err = c.SVG(&buf)
+	}
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	if ext == "png" {
+		w.Header().Set("Content-Type", "image/png")
+		w.Header().Set("Content-Disposition", mime.FormatMediaType("attachment", map[string]string{"filename": name + ".png"}))
+	} else {
+		w.Header().Set("Content-Type", "image/svg+xml")
+		w.Header().Set("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'")
+	}
+	w.Header().Set("Cache-Control", "private, max-age=60")
+	buf.WriteTo(w)
 }
