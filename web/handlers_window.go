@@ -244,7 +244,7 @@ func (s *Server) handleDefinitionSave(w http.ResponseWriter, r *http.Request) {
 		h, herr = strconv.Atoi(t)
 	}
 	in.WindowDays, in.HorizonDays = x, h
-	in.RunID, _ = strconv.ParseInt(strings.ReplaceAll(r.PostFormValue("run"), "\u202f", ""), 10, 64)
+	in.RunID, _ = strconv.ParseInt(r.PostFormValue("run"), 10, 64)
 	if run, err := s.store.LatestWindowRun(r.Context(), id); err == nil && run.ID == in.RunID {
 		if rep, err := analysis.LoadWindowReport(run); err == nil {
 			in.Percentile, in.LookbackDays = rep.Options.Percentile, rep.Options.LookbackDays

@@ -527,26 +527,22 @@ func writeOrdersRaw(ctx context.Context, dc any, imp Import, b ingest.Batch) (er
 }
 
 // nextOrderID returns the id the version's next order gets.
-func nextOrderID(ctx context.Context, preparer driver.ConnPrepareContext, versionID int64) (int64, error) {
-	st, err := preparer.PrepareContext(ctx, `SELECT COALESCE(max(id) + 1, ?1 << 32) FROM orders WHERE id BETWEEN ?1 << 32 AND (?1 << 32) + 4294967295`)
-	if err != nil {
-		return 0, err
+func nextOrderID(ctx context.Context, q driver.ConnPrepareContext, versionID int64) (int64, error) {
+	var next int64
+	found := false
+	err := rawQuery(ctx, q, `SELECT COALESCE(max(id) + 1, ?1 << 32) FROM orders WHERE id BETWEEN ?1 << 32 AND (?1 << 32) + 4294967295`,
+		[]any{versionID}, func(row []driver.Value) error {
+			v, ok := row[0].(int64)
+			if !ok {
+				return fmt.Errorf("next order id of version %d: got %T", versionID, row[0])
+			}
+			next, found = v, true
+			return nil
+		})
+	if err == nil && !found {
+		err = fmt.Errorf("next order id of version %d: no row", versionID)
 	}
-	defer st.Close()
-	rows, err := st.(driver.StmtQueryContext).QueryContext(ctx, []driver.NamedValue{{Ordinal: 1, Value: versionID}})
-	if err != nil {
-		return 0, err
-	}
-	defer rows.Close()
-	dest := make([]driver.Value, 1)
-	if err := rows.Next(dest); err != nil {
-		return 0, err
-	}
-	next, ok := dest[0].(int64)
-	if !ok {
-		return 0, fmt.Errorf("next order id of version %d: got %T", versionID, dest[0])
-	}
-	return next, nil
+	return next, err
 }
 
 // multiInsert repeats one row's placeholders n times after head. Only
