@@ -591,14 +591,9 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 	return mr, nil
 }
 
-// tieKey is a keyed hash of a customer id: ties in scores are broken by it,
-// never by input order (SplitMix64, Steele, Lea & Flood 2014).
-func tieKey(seed uint64, customer int32) uint64 {
-	z := seed ^ (uint64(customer) + 0x9e3779b97f4a7c15)
-	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
-	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
-	return z ^ (z >> 31)
-}
+// tieKey breaks ties in scores by a keyed hash of the customer, never by
+// input order.
+func tieKey(seed uint64, customer int32) uint64 { return snapshots.CustomerHash(seed, customer) }
 
 // sampleCustomers keeps at most max of rows, whole customers at a time, by
 // a keyed hash of the customer.

@@ -78,7 +78,7 @@ func Build(h *history.History, opt Options) (*Table, error) {
 		share := float64(opt.MaxRows) / float64(total)
 		tab.SampledShare = share
 		limit := uint64(share * float64(^uint64(0)))
-		keep = func(c int) bool { return mix(opt.Seed, uint64(c)) < limit }
+		keep = func(c int) bool { return CustomerHash(opt.Seed, int32(c)) < limit }
 	}
 	capRows := min(total, max(opt.MaxRows, 0))
 	if opt.MaxRows == 0 {
@@ -120,10 +120,11 @@ func Build(h *history.History, opt Options) (*Table, error) {
 	return tab, nil
 }
 
-// mix is SplitMix64 (Steele, Lea & Flood 2014) of the seed and a customer
-// id: a keyed hash, so the sample never depends on input order.
-func mix(seed, v uint64) uint64 {
-	z := seed ^ (v + 0x9e3779b97f4a7c15)
+// CustomerHash is SplitMix64 (Steele, Lea & Flood 2014) of a seed and a
+// customer id: a keyed hash, used wherever a choice about customers must
+// not depend on input order (the row cap's sample, ties in scores).
+func CustomerHash(seed uint64, customer int32) uint64 {
+	z := seed ^ (uint64(customer) + 0x9e3779b97f4a7c15)
 	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
 	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
 	return z ^ (z >> 31)
