@@ -1,6 +1,7 @@
 // Package model fits, calibrates, applies and serialises ebb's churn models:
-// the recency baseline and L2-penalised logistic regression, each with an
-// optional Platt or isotonic calibration fitted on the validation slice.
+// the recency baseline, L2-penalised logistic regression, gradient-boosted
+// trees and BG/NBD, each with an optional Platt or isotonic calibration
+// fitted on the validation slice.
 //
 // Scores are P(label = 1), i.e. P(no order day within the horizon H).
 package model
@@ -22,6 +23,7 @@ const (
 	KindBaseline Kind = "recency_baseline"
 	KindLogistic Kind = "logistic"
 	KindTrees    Kind = "gradient_boosted_trees"
+	KindBGNBD    Kind = "bgnbd"
 )
 
 // Baseline is the recency rule: score = recency / X ("quiet longest
@@ -154,6 +156,9 @@ type Model struct {
 	Logistic     *Logistic
 	// Trees (gradient-boosted trees only) reads Features unstandardized.
 	Trees *Trees
+	// BGNBD (BG/NBD only) reads order_days_total, tenure_days and
+	// recency_days.
+	BGNBD *BGNBD
 	// Calibration is nil for an uncalibrated model.
 	Calibration *Calibration
 	Meta        Meta
@@ -174,6 +179,8 @@ func (m *Model) Score(f *frame.Frame) ([]float64, error) {
 		return m.Logistic.Predict(z, nil)
 	case KindTrees:
 		return m.Trees.Predict(f, nil)
+	case KindBGNBD:
+		return m.BGNBD.Score(f, nil)
 	}
 	return nil, fmt.Errorf("score: unknown model kind %q", m.Kind)
 }
@@ -195,7 +202,7 @@ func (m *Model) Predict(f *frame.Frame) ([]float64, error) {
 func (m *Model) Validate() error {
 	switch m.Kind {
 	case KindBaseline:
-		if m.Baseline == nil || m.Logistic != nil || m.Standardizer != nil || m.Trees != nil {
+		if m.Baseline == nil || m.Logistic != nil || m.Standardizer != nil || m.Trees != nil || m.BGNBD != nil {
 			return fmt.Errorf("model %q: parameters missing or mixed", m.Kind)
 		}
 		if err := m.Baseline.validate(); err != nil {
@@ -205,7 +212,7 @@ func (m *Model) Validate() error {
 			return fmt.Errorf("model %q: features %q, want [%q]", m.Kind, m.Features, m.Baseline.Column)
 		}
 	case KindLogistic:
-		if m.Logistic == nil || m.Standardizer == nil || m.Baseline != nil || m.Trees != nil {
+		if m.Logistic == nil || m.Standardizer == nil || m.Baseline != nil || m.Trees != nil || m.BGNBD != nil {
 			return fmt.Errorf("model %q: parameters missing or mixed", m.Kind)
 		}
 		if err := m.Standardizer.Validate(); err != nil {
@@ -227,7 +234,7 @@ func (m *Model) Validate() error {
 			}
 		}
 	case KindTrees:
-		if m.Trees == nil || m.Logistic != nil || m.Standardizer != nil || m.Baseline != nil {
+		if m.Trees == nil || m.Logistic != nil || m.Standardizer != nil || m.Baseline != nil || m.BGNBD != nil {
 			return fmt.Errorf("model %q: parameters missing or mixed", m.Kind)
 		}
 		if err := m.Trees.validate(); err != nil {
@@ -235,6 +242,16 @@ func (m *Model) Validate() error {
 		}
 		if !equalStrings(m.Features, m.Trees.Features) {
 			return fmt.Errorf("model %q: features %q differ from the trees' %q", m.Kind, m.Features, m.Trees.Features)
+		}
+	case KindBGNBD:
+		if m.BGNBD == nil || m.Logistic != nil || m.Standardizer != nil || m.Baseline != nil || m.Trees != nil {
+			return fmt.Errorf("model %q: parameters missing or mixed", m.Kind)
+		}
+		if err := m.BGNBD.validate(); err != nil {
+			return err
+		}
+		if !equalStrings(m.Features, BGNBDFeatures) {
+			return fmt.Errorf("model %q: features %q, want %q", m.Kind, m.Features, BGNBDFeatures)
 		}
 	default:
 		return fmt.Errorf("model: unknown kind %q", m.Kind)
@@ -273,6 +290,7 @@ type savedModel struct {
 	Baseline     *Baseline           `json:"baseline,omitempty"`
 	Logistic     *savedLogistic      `json:"logistic,omitempty"`
 	Trees        *Trees              `json:"trees,omitempty"`
+	BGNBD        *BGNBD              `json:"bgnbd,omitempty"`
 	Calibration  *Calibration        `json:"calibration,omitempty"`
 	Meta         Meta                `json:"meta"`
 }
@@ -291,6 +309,7 @@ func (m *Model) Save() ([]byte, error) {
 		Standardizer: m.Standardizer,
 		Baseline:     m.Baseline,
 		Trees:        m.Trees,
+		BGNBD:        m.BGNBD,
 		Calibration:  m.Calibration,
 		Meta:         m.Meta,
 	}
@@ -322,6 +341,7 @@ func Load(data []byte) (*Model, error) {
 		Standardizer: s.Standardizer,
 		Baseline:     s.Baseline,
 		Trees:        s.Trees,
+		BGNBD:        s.BGNBD,
 		Calibration:  s.Calibration,
 		Meta:         s.Meta,
 	}

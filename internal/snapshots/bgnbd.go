@@ -23,16 +23,33 @@ func summary(h *history.History, c int, t civil.Date) (bgnbd.Customer, bool) {
 	return bgnbd.Customer{X: n - 1, Tx: float64(days[n-1] - first), T: float64(t - first)}, true
 }
 
-// FitBGNBD fits BG/NBD on every customer's order days up to through (the
+// FitBGNBD fits BG/NBD on customers' order days up to through (the
 // earliest snapshot date that will use the parameters), so the feature at
 // any later date reads nothing from after its own date. Customers whose
 // first order is on through itself have no age yet and are left out.
-func FitBGNBD(h *history.History, through civil.Date) (bgnbd.Params, bgnbd.FitInfo, error) {
+//
+// When maxCustomers > 0 and more customers qualify, the fit uses a sample
+// of about maxCustomers of them chosen by a keyed hash of the customer
+// (CustomerHash with seed): the four parameters describe the population,
+// and maximum likelihood on a uniform sample estimates them consistently,
+// at a fraction of the cost at 200k customers.
+func FitBGNBD(h *history.History, through civil.Date, maxCustomers int, seed uint64) (bgnbd.Params, bgnbd.FitInfo, error) {
+	var ids []int32
 	var cs []bgnbd.Customer
 	for c := 0; c < h.Customers(); c++ {
 		if s, ok := summary(h, c, through); ok && s.T > 0 {
-			cs = append(cs, s)
+			ids, cs = append(ids, int32(c)), append(cs, s)
 		}
+	}
+	if maxCustomers > 0 && len(cs) > maxCustomers {
+		limit := uint64(float64(maxCustomers) / float64(len(cs)) * float64(^uint64(0)))
+		kept := cs[:0]
+		for i, c := range ids {
+			if CustomerHash(seed, c) < limit {
+				kept = append(kept, cs[i])
+			}
+		}
+		cs = kept
 	}
 	return bgnbd.Fit(cs, bgnbd.FitOptions{})
 }

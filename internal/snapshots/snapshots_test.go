@@ -220,8 +220,8 @@ func TestNoFeatureReadsTheFuture(t *testing.T) {
 		ha, hb := build(t, before, customers, base+1400), build(t, future, customers, base+1400)
 		// The BG/NBD feature too: its parameters are fitted on orders up to
 		// the earliest snapshot date, here t, on each history.
-		pa, _, errA := FitBGNBD(ha, opt.Dates[0])
-		pb, _, errB := FitBGNBD(hb, opt.Dates[0])
+		pa, _, errA := FitBGNBD(ha, opt.Dates[0], 0, 1)
+		pb, _, errB := FitBGNBD(hb, opt.Dates[0], 0, 1)
 		if errA != nil || errB != nil {
 			t.Fatalf("fit BG/NBD: %v %v", errA, errB)
 		}
