@@ -40,6 +40,13 @@ type Customer struct {
 	// Truth, for tests of later models:
 	RatePerYear float64   // the customer's true order-day rate while active (orders per year, before seasonality)
 	DropoutDay  time.Time // first day the customer is no longer active; zero if still active at End
+	// Quiet is whether the customer carries the quiet-leaving clock (see
+	// quietShare): hidden state, drawn at sign-up.
+	Quiet bool
+	// LeftAfterOrder is whether the customer left by the dropout coin
+	// tossed after their last order day (DropoutDay is the day after it),
+	// rather than by the quiet clock.
+	LeftAfterOrder bool
 }
 
 // Order is one order. A customer may have two orders on the same day.
@@ -209,6 +216,7 @@ func Generate(opt Options) Business {
 		p := math.Min(beta(rng, dropA, dropB)*ch.dropFactor, maxDrop)
 		quietDay := math.MaxInt
 		if rng.Float64() < quietShare {
+			c.Quiet = true
 			// At least one day after sign-up: the first order always happens.
 			quietDay = signup + 1 + int(rng.ExpFloat64()*quietMeanDays)
 		}
@@ -258,6 +266,7 @@ func Generate(opt Options) Business {
 		}
 		if dropout > 0 && dropout < nDays {
 			c.DropoutDay = dayDate(dropout)
+			c.LeftAfterOrder = dropout != quietDay
 		}
 	}
 
