@@ -80,6 +80,7 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 	for _, n := range rep.Notes {
 		v.Rows += " " + n
 	}
+	v.Checks = runChecks(rep)
 	for _, m := range rep.Models {
 		row := views.ModelRow{ID: idOf[m.Name], Name: m.Name, InUse: inUse[m.Name],
 			AUC: f3(m.ROCAUC.Estimate), AUCBand: fmt.Sprintf("%s–%s", f3(m.ROCAUC.Lower), f3(m.ROCAUC.Upper)),
@@ -135,6 +136,42 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 		v.History = append(v.History, [5]string{views.Count(int(m.ID)), m.Name, views.Count(int(m.RunID)), f3(sum.ROCAUC.Estimate), use})
 	}
 	s.render(w, r, http.StatusOK, views.Models(v))
+}
+
+// runChecks are the sentences that say how far the run's figures can be
+// trusted: the row cap's cost, the BG/NBD fit's cut-off and, on generated
+// data, the truth bound.
+func runChecks(rep *analysis.TrainReport) []string {
+	var out []string
+	if c := rep.CapCheck; c != nil {
+		capped := fmt.Sprintf("The snapshots gave %s rows, under the cap of %s, so none were dropped.", views.Count(rep.RowsBeforeCap), views.Count(rep.MaxRows))
+		if rep.RowsBeforeCap > rep.MaxRows {
+			capped = fmt.Sprintf("The snapshots gave %s rows; the cap kept whole customers up to %s rows.", views.Count(rep.RowsBeforeCap), views.Count(rep.MaxRows))
+		}
+		out = append(out, fmt.Sprintf("Row sampling: %s Trained on a sample of half the customers (%s of %s training rows), the %s model reaches ROC AUC %s on the same test rows, against %s with all of them — sampling by customer costs %s.",
+			capped, views.Count(c.SampledRows), views.Count(c.Rows), c.Model, f3(c.SampledROCAUC), f3(c.ROCAUC), aucCost(c.ROCAUC-c.SampledROCAUC)))
+	}
+	for _, m := range rep.Models {
+		if m.Name == "bgnbd" && rep.BGNBD != nil {
+			out = append(out, "The bgnbd model scores P(no order day within the horizon) from each customer's order count, last order and age alone; its parameters are refitted for every period on the orders before it, so it never sees the period it is judged on.")
+		}
+	}
+	if rep.TruthROCAUC > 0 {
+		out = append(out, fmt.Sprintf("Demo data only: the true probabilities, which know each invented customer's hidden state (whether they already left, their own order rate), reach ROC AUC %s on these test rows. No model can: the rest of the gap is what an order history cannot reveal.",
+			f3(rep.TruthROCAUC)))
+	}
+	return out
+}
+
+// aucCost says how much ROC AUC a change costs, in words.
+func aucCost(d float64) string {
+	switch {
+	case d <= 0:
+		return "nothing here"
+	case d < 0.005:
+		return fmt.Sprintf("%s of ROC AUC, within noise", f3(d))
+	}
+	return fmt.Sprintf("%s of ROC AUC", f3(d))
 }
 
 func (s *Server) handleModelUse(w http.ResponseWriter, r *http.Request) {

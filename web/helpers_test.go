@@ -72,7 +72,7 @@ func newEnv(t *testing.T, withDemo bool) *testEnv {
 	e.runner.Register(analysis.KindImport, analysis.ImportJob(st, c.now))
 	hc := history.NewCache(2)
 	e.runner.Register(analysis.KindWindow, analysis.WindowJob(st, hc, c.now))
-	e.runner.Register(analysis.KindTrain, analysis.TrainJob(st, hc, c.now))
+	e.runner.Register(analysis.KindTrain, analysis.TrainJob(st, hc, c.now, nil))
 	if _, err := e.runner.Start(ctx); err != nil {
 		t.Fatal(err)
 	}

@@ -122,7 +122,7 @@ func TestTrainFromTheDatasetPage(t *testing.T) {
 	if res, b := e.get(c, page+"/models?k=zero"); res.StatusCode != http.StatusOK || !strings.Contains(b, "whole number of customers") {
 		t.Errorf("a bad list size: %d", res.StatusCode)
 	}
-	if res, csv := e.get(c, page+"/test-rows.csv"); res.StatusCode != http.StatusOK || !strings.HasPrefix(csv, "customer_id,snapshot_date,label,baseline,logistic,trees\n") {
+	if res, csv := e.get(c, page+"/test-rows.csv"); res.StatusCode != http.StatusOK || !strings.HasPrefix(csv, "customer_id,snapshot_date,label,baseline,logistic,trees,bgnbd\n") {
 		t.Errorf("test rows download: %d %.60q", res.StatusCode, csv)
 	}
 	if !strings.Contains(body, "The feature p_active_bgnbd uses BG/NBD fitted on orders through") {

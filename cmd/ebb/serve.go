@@ -1,6 +1,8 @@
 package main
 
 import (
+	"sync"
+
 	"bytes"
 	"context"
 	"encoding/hex"
@@ -17,6 +19,7 @@ import (
 	"ebb/demo"
 	"ebb/internal/analysis"
 	"ebb/internal/auth"
+	"ebb/internal/civil"
 	"ebb/internal/history"
 	"ebb/internal/jobs"
 	"ebb/internal/problem"
@@ -141,7 +144,12 @@ func serve(ctx context.Context, e env, o serveOptions) error {
 	histories := history.NewCache(2)
 	runner.Register(analysis.KindImport, analysis.ImportJob(st, now))
 	runner.Register(analysis.KindWindow, analysis.WindowJob(st, histories, now))
-	runner.Register(analysis.KindTrain, analysis.TrainJob(st, histories, now))
+	runner.Register(analysis.KindTrain, analysis.TrainJob(st, histories, now, func(dataset string) analysis.TruthFunc {
+		if !o.demo || dataset != demoDataset {
+			return nil
+		}
+		return demoTruth()
+	}))
 	if n, err := runner.Start(ctx); err != nil {
 		return err
 	} else if n > 0 {
@@ -268,6 +276,13 @@ func serveHTTP(ctx context.Context, ln net.Listener, h http.Handler, log *slog.L
 	}
 	return nil
 }
+
+// demoTruth gives the demo business's true probabilities, so the models
+// page can show how close each model gets to what no model can reach.
+var demoTruth = sync.OnceValue(func() analysis.TruthFunc {
+	truth := demo.Generate(demo.Options{}).Truth()
+	return func(key string, day civil.Date, horizonDays int) float64 { return truth(key, day.Time(), horizonDays) }
+})
 
 // loadDemo imports the demo business unless a dataset called "demo" exists.
 func loadDemo(ctx context.Context, e env, st *store.Store) error {

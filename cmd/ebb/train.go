@@ -39,7 +39,7 @@ definition (ebb window --save).`,
 			f.String(&db, "db", "ebb.db", "FILE", "SQLite database file")
 			f.String(&dataset, "dataset", "", "NAME", "dataset to train on")
 			f.String(&testRows, "test-rows", "", "FILE", "write the evaluated test rows as CSV: customer_id,snapshot_date,label, then one score column per model")
-			f.String(&models, "models", "baseline,logistic,trees", "LIST", "models to train, comma-separated: baseline, logistic, trees")
+			f.String(&models, "models", "baseline,logistic,trees,bgnbd", "LIST", "models to train, comma-separated: baseline, logistic, trees, bgnbd")
 			f.Int(&snaps, "snapshots", 100, "N", "snapshot dates")
 			f.String(&seed, "seed", "1", "N", "random seed of dates, sampling and bootstrap")
 			f.Int(&maxRows, "max-rows", 1_000_000, "ROWS", "cap on snapshot rows (whole customers are kept or left out)")

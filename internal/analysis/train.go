@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math"
 	"math/rand/v2"
 	"slices"
 	"strconv"
@@ -16,6 +17,7 @@ import (
 	"ebb/internal/civil"
 	"ebb/internal/evaluate"
 	"ebb/internal/frame"
+	"ebb/internal/history"
 	"ebb/internal/jobs"
 	"ebb/internal/model"
 	"ebb/internal/problem"
@@ -25,7 +27,7 @@ import (
 
 // TrainOptions configure a training run. Zero values take the defaults.
 type TrainOptions struct {
-	Models     []string // "baseline", "logistic", "trees"; default all three
+	Models     []string // "baseline", "logistic", "trees", "bgnbd"; default all four
 	Snapshots  int      // snapshot dates; default 100
 	Seed       uint64   // default 1
 	MaxRows    int      // row cap (whole customers kept); default 1,000,000
@@ -38,6 +40,11 @@ type TrainOptions struct {
 	Calibration string
 	// Clock times the stages (the CLI passes time.Now); nil times nothing.
 	Clock func() time.Time `json:"-"`
+	// Truth, when set, gives the true P(no order day within H) of a
+	// customer at a date (NaN when unknown): only a generated business
+	// knows it. The run then reports the ROC AUC of these probabilities on
+	// the test rows, a bound no model can reach.
+	Truth TruthFunc `json:"-"`
 	// TestRows, when set, receives the evaluated test rows as CSV:
 	// customer_id,snapshot_date,label, then one score column per model, so
 	// the evaluation can be audited in any tool.
@@ -46,7 +53,7 @@ type TrainOptions struct {
 
 func (o TrainOptions) resolved() TrainOptions {
 	if len(o.Models) == 0 {
-		o.Models = []string{"baseline", "logistic", "trees"}
+		o.Models = []string{"baseline", "logistic", "trees", "bgnbd"}
 	}
 	if o.Snapshots == 0 {
 		o.Snapshots = 100
@@ -71,6 +78,22 @@ func (o TrainOptions) resolved() TrainOptions {
 	}
 	return o
 }
+
+// CapCheck compares a model trained on every training row with the same
+// model trained on a customer sample of half of them, on the same test
+// rows: the row cap samples whole customers the same way, so a small
+// difference here says the cap costs little.
+type CapCheck struct {
+	Model         string  `json:"model"`
+	Rows          int     `json:"rows"`
+	SampledRows   int     `json:"sampled_rows"`
+	ROCAUC        float64 `json:"roc_auc"`
+	SampledROCAUC float64 `json:"sampled_roc_auc"`
+}
+
+// TruthFunc returns P(no order day in (day, day+horizonDays] | the
+// customer's true state at day), or NaN when it is not known.
+type TruthFunc func(customerKey string, day civil.Date, horizonDays int) float64
 
 // ListFigures are a list size's figures averaged over the test dates.
 type ListFigures struct {
@@ -178,6 +201,13 @@ type TrainReport struct {
 	// separately; the headline figures are the latest fold's.
 	Folds            []FoldReport `json:"folds,omitempty"`
 	CalibratedOnDate string       `json:"calibrated_on"`
+	// CapCheck shows what sampling rows by customer costs.
+	CapCheck *CapCheck `json:"cap_check,omitempty"`
+	// MaxRows is the row cap the run used.
+	MaxRows int `json:"max_rows"`
+	// TruthROCAUC is the ROC AUC of the true probabilities on the test
+	// rows (generated data only; 0 when unknown).
+	TruthROCAUC float64 `json:"truth_roc_auc,omitempty"`
 }
 
 // Train builds snapshots from the dataset's current version and churn
@@ -238,7 +268,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	// BG/NBD parameters for the p_active_bgnbd feature, fitted on orders up
 	// to the earliest snapshot date, so no date's feature sees its future.
 	sopt := snapshots.Options{WindowDays: def.WindowDays, HorizonDays: def.HorizonDays, Dates: dates, MaxRows: opt.MaxRows, Seed: opt.Seed}
-	if params, info, err := snapshots.FitBGNBD(h, dates[0]); err == nil && info.Converged {
+	if params, info, err := snapshots.FitBGNBD(h, dates[0], bgnbdSample, opt.Seed); err == nil && info.Converged {
 		sopt.BGNBD = &params
 		rep.BGNBD = &BGNBDFit{Params: params, FittedThrough: dates[0].String(), LogLikelihood: info.LogLik}
 	} else {
@@ -248,7 +278,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	if err != nil {
 		return 0, nil, err
 	}
-	rep.RowsBeforeCap = tab.RowsBeforeCap
+	rep.RowsBeforeCap, rep.MaxRows = tab.RowsBeforeCap, opt.MaxRows
 	rep.Features = tab.Names
 	partOf := make(map[civil.Date]snapshots.Part, len(dates))
 	for i, t := range dates {
@@ -296,6 +326,13 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	for i, c := range testF.Customers() {
 		clusters[i] = int(c)
 	}
+	keys, err := st.CustomerKeys(ctx, d.ID)
+	if err != nil {
+		return 0, nil, err
+	}
+	if opt.Truth != nil {
+		rep.TruthROCAUC = truthAUC(opt.Truth, testF, keys, def.HorizonDays, testLabels)
+	}
 	bopt := evaluate.BootstrapOptions{Replicates: opt.Bootstrap, Seed1: opt.Seed, Seed2: 0x65626221}
 	var baselineScores []float64
 	var ranked []store.RankedList
@@ -306,9 +343,11 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		m    *model.Model
 	}
 	var models []trained
+	spec := fitSpec{h: h, windowDays: def.WindowDays, horizonDays: def.HorizonDays, c: opt.C, seed: opt.Seed,
+		bgnbdThrough: firstOf(dates, parts, snapshots.Validation)}
 	for i, name := range opt.Models {
 		progress(20+60*float64(i)/float64(len(opt.Models)), "training "+name)
-		m, err := trainModel(name, trainF, validF, def.WindowDays, opt.C, opt.Seed, 0)
+		m, err := trainModel(name, trainF, validF, spec)
 		if err != nil {
 			return 0, nil, err
 		}
@@ -341,13 +380,22 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		stage("evaluate_" + name)
 	}
 
+	if slices.Contains(opt.Models, "logistic") {
+		progress(80, "checking the row cap")
+		if rep.CapCheck, err = capCheck(tab, fr, train, validF, testF, testLabels, spec, opt); err != nil {
+			return 0, nil, err
+		}
+		for _, m := range rep.Models {
+			if m.Name == "logistic" {
+				rep.CapCheck.ROCAUC = m.ROCAUC.Estimate
+			}
+		}
+		stage("cap_check")
+	}
+
 	// The evaluated rows are kept with the run (for the models page's
 	// download) and written to TestRows when asked.
 	var testRowsCSV bytes.Buffer
-	keys, err := st.CustomerKeys(ctx, d.ID)
-	if err != nil {
-		return 0, nil, err
-	}
 	if err := writeTestRows(&testRowsCSV, testF, keys, opt.Models, testScores); err != nil {
 		return 0, nil, fmt.Errorf("write test rows: %w", err)
 	}
@@ -359,7 +407,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 
 	if opt.Folds > 1 {
 		progress(80, "earlier folds")
-		if rep.Folds, err = earlierFolds(fr, tab, dates, def.HorizonDays, def.WindowDays, opt); err != nil {
+		if rep.Folds, err = earlierFolds(fr, tab, dates, spec, opt); err != nil {
 			return 0, nil, err
 		}
 		stage("folds")
@@ -375,7 +423,9 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	order := bestFirst(rep.Models)
 	for _, i := range order {
 		t := models[i]
-		m, err := trainModel(t.name, refitF, nil, def.WindowDays, opt.C, opt.Seed, max(rounds[t.name], 1))
+		refitSpec := spec
+		refitSpec.rounds, refitSpec.bgnbdThrough = max(rounds[t.name], 1), firstOf(dates, parts, snapshots.Test)
+		m, err := trainModel(t.name, refitF, nil, refitSpec)
 		if err != nil {
 			return 0, nil, err
 		}
@@ -444,23 +494,59 @@ func bestFirst(ms []ModelReport) []int {
 	return idx
 }
 
-// trainModel fits one model. valid, when given, early-stops the trees;
-// rounds, when positive, fixes their number instead (the refit uses the
-// rounds the evaluated fit kept).
-func trainModel(name string, train, valid *frame.Frame, windowDays int, c float64, seed uint64, rounds int) (*model.Model, error) {
+// bgnbdSample bounds the customers a BG/NBD fit reads (see
+// snapshots.FitBGNBD).
+const bgnbdSample = 50_000
+
+// fitSpec is what fitting a model needs besides its frames.
+type fitSpec struct {
+	h                       *history.History
+	windowDays, horizonDays int
+	c                       float64 // logistic L2 strength
+	seed                    uint64
+	// rounds, when positive, fixes the trees' number instead of early
+	// stopping (the refit uses the rounds the evaluated fit kept).
+	rounds int
+	// bgnbdThrough is the last order day the BG/NBD model's parameters
+	// read: the first date its calibration uses, so neither calibration nor
+	// test sees a fit on their own future.
+	bgnbdThrough civil.Date
+}
+
+// firstOf returns the first date in part p (the last date when none is).
+func firstOf(dates []civil.Date, parts []snapshots.Part, p snapshots.Part) civil.Date {
+	for i, q := range parts {
+		if q == p {
+			return dates[i]
+		}
+	}
+	return dates[len(dates)-1]
+}
+
+// trainModel fits one model. valid, when given, early-stops the trees.
+func trainModel(name string, train, valid *frame.Frame, spec fitSpec) (*model.Model, error) {
 	switch name {
 	case "baseline":
-		return model.TrainBaseline("recency_days", float64(windowDays))
+		return model.TrainBaseline("recency_days", float64(spec.windowDays))
 	case "logistic":
-		return model.TrainLogistic(train, train.Names(), model.LogisticOptions{C: c})
+		return model.TrainLogistic(train, train.Names(), model.LogisticOptions{C: spec.c})
 	case "trees":
-		opt := model.TreesOptions{Seed: seed}
-		if rounds > 0 {
-			opt.MaxIter, valid = rounds, nil
+		opt := model.TreesOptions{Seed: spec.seed}
+		if spec.rounds > 0 {
+			opt.MaxIter, valid = spec.rounds, nil
 		}
 		return model.TrainTrees(train, train.Names(), valid, opt)
+	case "bgnbd":
+		p, info, err := snapshots.FitBGNBD(spec.h, spec.bgnbdThrough, bgnbdSample, spec.seed)
+		if err != nil {
+			return nil, fmt.Errorf("fit BG/NBD through %s: %w", spec.bgnbdThrough, err)
+		}
+		if !info.Converged {
+			return nil, problem.New(problem.Invalid, "BG/NBD did not converge on the orders through %s; leave it out with --models or use a longer history", spec.bgnbdThrough)
+		}
+		return model.NewBGNBD(p, float64(spec.horizonDays), spec.bgnbdThrough.String())
 	}
-	return nil, problem.New(problem.Invalid, "unknown model %q (want baseline, logistic or trees)", name)
+	return nil, problem.New(problem.Invalid, "unknown model %q (want baseline, logistic, trees or bgnbd)", name)
 }
 
 func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.Frame, labels []bool, clusters []int, horizon int,
@@ -591,6 +677,45 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 	return mr, nil
 }
 
+// capCheck trains the logistic model on a customer sample of half the
+// training rows and scores it on the test rows.
+func capCheck(tab *snapshots.Table, fr *frame.Frame, train []int, validF, testF *frame.Frame, labels []bool, spec fitSpec, opt TrainOptions) (*CapCheck, error) {
+	half := sampleCustomers(tab, train, len(train)/2, opt.Seed+7)
+	m, err := trainModel("logistic", subset(fr, half), validF, spec)
+	if err != nil {
+		return nil, fmt.Errorf("row cap check: %w", err)
+	}
+	if err := m.Calibrate(model.CalibrationKind(opt.Calibration), validF); err != nil {
+		return nil, fmt.Errorf("row cap check: %w", err)
+	}
+	scores, err := m.Predict(testF)
+	if err != nil {
+		return nil, fmt.Errorf("row cap check: %w", err)
+	}
+	auc, err := evaluate.ROCAUC(scores, labels)
+	if err != nil {
+		return nil, fmt.Errorf("row cap check: %w", err)
+	}
+	return &CapCheck{Model: "logistic", Rows: len(train), SampledRows: len(half), SampledROCAUC: auc}, nil
+}
+
+// truthAUC is the ROC AUC of the true probabilities of the test rows, 0
+// when any row's is unknown.
+func truthAUC(truth TruthFunc, testF *frame.Frame, keys []string, horizon int, labels []bool) float64 {
+	p := make([]float64, testF.Rows())
+	for i, c := range testF.Customers() {
+		p[i] = truth(keys[c], civil.Date(testF.Days()[i]), horizon)
+		if math.IsNaN(p[i]) {
+			return 0
+		}
+	}
+	auc, err := evaluate.ROCAUC(p, labels)
+	if err != nil {
+		return 0
+	}
+	return auc
+}
+
 // tieKey breaks ties in scores by a keyed hash of the customer, never by
 // input order.
 func tieKey(seed uint64, customer int32) uint64 { return snapshots.CustomerHash(seed, customer) }
@@ -680,13 +805,21 @@ type TrainJobResult struct {
 }
 
 // TrainJob returns the job function of a training run.
-func TrainJob(st *store.Store, cache *Histories, now func() time.Time) jobs.Func {
+//
+// truth, when not nil, gives the true probabilities of a dataset known to be
+// generated (nil for any other).
+func TrainJob(st *store.Store, cache *Histories, now func() time.Time, truth func(dataset string) TruthFunc) jobs.Func {
 	return func(ctx context.Context, j jobs.Job, p *jobs.Progress) ([]byte, error) {
 		var params TrainParams
 		if err := json.Unmarshal(j.Params, &params); err != nil {
 			return nil, fmt.Errorf("train job %d: params: %w", j.ID, err)
 		}
 		params.Options.Clock = now
+		if truth != nil {
+			if d, err := st.DatasetByID(ctx, params.DatasetID); err == nil {
+				params.Options.Truth = truth(d.Name)
+			}
+		}
 		id, rep, err := Train(ctx, st, cache, params.DatasetID, params.Options, j.CreatedBy, now(), p.Set)
 		if err != nil {
 			return nil, err
@@ -748,7 +881,8 @@ func permutationImportance(m *model.Model, testF *frame.Frame, labels []bool, au
 
 // earlierFolds trains and evaluates every model on each rolling-origin
 // fold before the latest one (point figures, no intervals).
-func earlierFolds(fr *frame.Frame, tab *snapshots.Table, dates []civil.Date, horizon, window int, opt TrainOptions) ([]FoldReport, error) {
+func earlierFolds(fr *frame.Frame, tab *snapshots.Table, dates []civil.Date, spec fitSpec, opt TrainOptions) ([]FoldReport, error) {
+	horizon := spec.horizonDays
 	folds, err := snapshots.Folds(dates, horizon, opt.Folds)
 	if err != nil {
 		return nil, err
@@ -781,8 +915,10 @@ func earlierFolds(fr *frame.Frame, tab *snapshots.Table, dates []civil.Date, hor
 		trainF, validF, testF := subset(fr, train), subset(fr, valid), subset(fr, test)
 		labels := boolLabels(testF.Labels())
 		fold := FoldReport{TestFrom: from.String(), TestTo: to.String()}
+		foldSpec := spec
+		foldSpec.bgnbdThrough = firstOf(dates, parts, snapshots.Validation)
 		for _, name := range opt.Models {
-			m, err := trainModel(name, trainF, validF, window, opt.C, opt.Seed, 0)
+			m, err := trainModel(name, trainF, validF, foldSpec)
 			if err != nil {
 				return nil, err
 			}
