@@ -3,7 +3,9 @@ package evaluate
 import (
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"slices"
+	"sync"
 
 	"ebb/internal/problem"
 )
@@ -21,37 +23,80 @@ type Intervals struct {
 // by how often their customer was drawn, one pass in score order. That
 // turns 200 sorts per metric into one.
 func BootstrapAll(probs []float64, labels []bool, clusters []int, opt BootstrapOptions) (Intervals, error) {
-	var out Intervals
-	if _, err := probabilities(probs, labels); err != nil {
-		return out, err
-	}
-	w, err := newWeighted(probs, labels, clusters, opt)
+	ivs, _, err := BootstrapMany([][]float64{probs}, labels, clusters, -1, opt)
 	if err != nil {
-		return out, err
+		return Intervals{}, err
 	}
-	o := w.sort(probs)
+	return ivs[0], nil
+}
+
+// BootstrapMany is BootstrapAll for several models' probabilities on the
+// same rows, with one set of resampled customers for all of them: each
+// model's intervals equal BootstrapAll's, and, when ref ≥ 0, vsRef[m] is
+// the paired interval of model m's ROC AUC minus model ref's (as PairedAUC
+// gives it; vsRef[ref] is left zero). Replicates are drawn in order on one
+// goroutine and evaluated on every core, so results do not depend on the
+// number of cores.
+func BootstrapMany(probs [][]float64, labels []bool, clusters []int, ref int, opt BootstrapOptions) (ivs []Intervals, vsRef []Interval, err error) {
+	if len(probs) == 0 || ref >= len(probs) {
+		return nil, nil, problem.New(problem.Invalid, "No models to evaluate, or no model %d to compare with.", ref)
+	}
+	for _, p := range probs {
+		if _, err := probabilities(p, labels); err != nil {
+			return nil, nil, err
+		}
+	}
+	w, err := newWeighted(probs[0], labels, clusters, opt)
+	if err != nil {
+		return nil, nil, err
+	}
+	os := make([]*sorted, len(probs))
+	for m, p := range probs {
+		if len(p) != len(labels) {
+			return nil, nil, problem.New(problem.Invalid, "Model %d scored %d rows, not %d; every model needs the same rows.", m+1, len(p), len(labels))
+		}
+		os[m] = w.sort(p)
+	}
 	metrics := [4]Metric{ROCAUC, AveragePrecision, Brier, LogLoss}
-	ivs := make([]Interval, 4)
-	for m := range 4 {
-		est, err := metrics[m](probs, labels)
-		if err != nil {
-			return out, err
+	est := make([][4]float64, len(probs))
+	for m, p := range probs {
+		for k := range 4 {
+			if est[m][k], err = metrics[k](p, labels); err != nil {
+				return nil, nil, err
+			}
 		}
-		ivs[m].Estimate = est
 	}
-	vals := w.run(func(counts []float64) [4]float64 {
-		o.weigh(counts)
-		b, l := o.brierAndLogLoss()
-		return [4]float64{o.auc(), o.ap(), b, l}
+	vals := w.run(func() func(counts []float64) []float64 {
+		return func(counts []float64) []float64 {
+			out := make([]float64, 4*len(os))
+			for m, o := range os {
+				out[4*m], out[4*m+1], out[4*m+2], out[4*m+3] = o.metrics(counts)
+			}
+			return out
+		}
 	})
-	for m := range 4 {
-		iv, err := w.interval(ivs[m].Estimate, vals, m)
-		if err != nil {
-			return out, err
+	ivs = make([]Intervals, len(probs))
+	for m := range probs {
+		var iv [4]Interval
+		for k := range 4 {
+			if iv[k], err = w.interval(est[m][k], vals, func(v []float64) float64 { return v[4*m+k] }); err != nil {
+				return nil, nil, err
+			}
 		}
-		ivs[m] = iv
+		ivs[m] = Intervals{ROCAUC: iv[0], AveragePrecision: iv[1], Brier: iv[2], LogLoss: iv[3]}
 	}
-	return Intervals{ROCAUC: ivs[0], AveragePrecision: ivs[1], Brier: ivs[2], LogLoss: ivs[3]}, nil
+	if ref >= 0 {
+		vsRef = make([]Interval, len(probs))
+		for m := range probs {
+			if m == ref {
+				continue
+			}
+			if vsRef[m], err = w.interval(est[m][0]-est[ref][0], vals, func(v []float64) float64 { return v[4*m] - v[4*ref] }); err != nil {
+				return nil, nil, err
+			}
+		}
+	}
+	return ivs, vsRef, nil
 }
 
 // PairedAUC is PairedBootstrap with ROCAUC, computed by weights as
@@ -73,12 +118,14 @@ func PairedAUC(scoresA, scoresB []float64, labels []bool, clusters []int, opt Bo
 		return Interval{}, err
 	}
 	oa, ob := w.sort(scoresA), w.sort(scoresB)
-	vals := w.run(func(counts []float64) [4]float64 {
-		oa.weigh(counts)
-		ob.weigh(counts)
-		return [4]float64{oa.auc() - ob.auc()}
+	vals := w.run(func() func(counts []float64) []float64 {
+		return func(counts []float64) []float64 {
+			x, _, _, _ := oa.metrics(counts)
+			y, _, _, _ := ob.metrics(counts)
+			return []float64{x - y}
+		}
 	})
-	return w.interval(a-b, vals, 0)
+	return w.interval(a-b, vals, func(v []float64) float64 { return v[0] })
 }
 
 // weighted holds what every replicate shares: each row's customer, the
@@ -123,31 +170,56 @@ func newWeighted(scores []float64, labels []bool, clusters []int, opt BootstrapO
 }
 
 // run draws the replicates (customers with replacement, in the order
-// Bootstrap draws them) and evaluates each from the customers' counts.
-func (w *weighted) run(eval func(counts []float64) [4]float64) [][4]float64 {
-	counts := make([]float64, w.nc)
-	out := make([][4]float64, 0, w.reps)
-	for range w.reps {
+// Bootstrap draws them) on this goroutine and evaluates each from the
+// customers' counts on every core; newEval gives each worker its own
+// evaluator (with its own scratch). Results are in replicate order.
+func (w *weighted) run(newEval func() func(counts []float64) []float64) [][]float64 {
+	workers := max(runtime.GOMAXPROCS(0), 1)
+	type job struct {
+		r      int
+		counts []float64
+	}
+	jobs := make(chan job, workers)
+	free := make(chan []float64, 2*workers)
+	for range 2 * workers {
+		free <- make([]float64, w.nc)
+	}
+	out := make([][]float64, w.reps)
+	var wg sync.WaitGroup
+	for range workers {
+		eval := newEval()
+		wg.Go(func() {
+			for j := range jobs {
+				out[j.r] = eval(j.counts)
+				free <- j.counts
+			}
+		})
+	}
+	for r := range w.reps {
+		counts := <-free
 		clear(counts)
 		for range w.nc {
 			counts[w.rng.IntN(w.nc)]++
 		}
-		out = append(out, eval(counts))
+		jobs <- job{r, counts}
 	}
+	close(jobs)
+	wg.Wait()
 	return out
 }
 
 // interval is the percentile interval of metric m over the replicates;
 // NaN replicates (one class drawn) are skipped as Bootstrap skips them.
-func (w *weighted) interval(est float64, vals [][4]float64, m int) (Interval, error) {
+func (w *weighted) interval(est float64, vals [][]float64, metric func([]float64) float64) (Interval, error) {
 	var xs []float64
 	skipped := 0
 	for _, v := range vals {
-		if math.IsNaN(v[m]) {
+		x := metric(v)
+		if math.IsNaN(x) {
 			skipped++
 			continue
 		}
-		xs = append(xs, v[m])
+		xs = append(xs, x)
 	}
 	if len(xs) == 0 || skipped*10 > w.reps {
 		return Interval{}, problem.New(problem.Invalid, "Too few customers for a bootstrap interval: %d of %d resamples could not be evaluated (for example, they held only one class).", skipped, w.reps)
@@ -164,7 +236,6 @@ type sorted struct {
 	scores []float64
 	labels []bool
 	cust   []int32
-	w      []float64 // the current replicate's weights, in this order
 	// Each row's squared error and log loss, computed once.
 	sq, ll []float64
 }
@@ -184,7 +255,7 @@ func (w *weighted) sort(scores []float64) *sorted {
 		return 0
 	})
 	n := len(idx)
-	o := &sorted{scores: make([]float64, n), labels: make([]bool, n), cust: make([]int32, n), w: make([]float64, n),
+	o := &sorted{scores: make([]float64, n), labels: make([]bool, n), cust: make([]int32, n),
 		sq: make([]float64, n), ll: make([]float64, n)}
 	lo, hi := LogLossEpsilon, 1-LogLossEpsilon
 	for k, r := range idx {
@@ -200,79 +271,47 @@ func (w *weighted) sort(scores []float64) *sorted {
 	return o
 }
 
-// weigh sets the rows' weights from the customers' counts.
-func (o *sorted) weigh(counts []float64) {
-	for k, c := range o.cust {
-		o.w[k] = counts[c]
-	}
-}
-
-// auc returns the weighted Mann–Whitney AUC (ties count ½) of the current
-// weights; NaN with one class.
-func (o *sorted) auc() float64 {
-	var num, negBelow, wp, wn float64
+// metrics returns ROC AUC, average precision, Brier score and log loss of
+// the rows weighted by their customers' counts, in one pass from the
+// highest score down (the weights are read as they are needed; on this kind
+// of machine the passes over memory, not the arithmetic, are the cost).
+// Going down, a tie group of gp positive and gn negative weight adds
+// gn·(positives above + gp/2) rightly ordered pairs (ties count ½), so
+// AUC = that/(P·N);
+// average precision is Σ gp·precision/P with P factored out to the end.
+// NaN where the metric is undefined for the replicate, as auc and ap give.
+func (o *sorted) metrics(counts []float64) (auc, ap, brier, logLoss float64) {
+	var right, posAbove, negAbove, apSum, sb, sl float64
 	n := len(o.scores)
-	for i := 0; i < n; {
+	for i := n - 1; i >= 0; {
 		j := i
 		var gp, gn float64
-		for ; j < n && o.scores[j] == o.scores[i]; j++ {
-			if o.labels[j] {
-				gp += o.w[j]
-			} else {
-				gn += o.w[j]
-			}
-		}
-		num += gp * (negBelow + gn/2)
-		negBelow += gn
-		wp += gp
-		wn += gn
-		i = j
-	}
-	if wp == 0 || wn == 0 {
-		return math.NaN()
-	}
-	return num / (wp * wn)
-}
-
-// ap returns the weighted average precision (scikit-learn's steps, tied
-// scores entering together); NaN without positives.
-func (o *sorted) ap() float64 {
-	var wp float64
-	for k, y := range o.labels {
-		if y {
-			wp += o.w[k]
-		}
-	}
-	if wp == 0 {
-		return math.NaN()
-	}
-	var tp, fp, prevRecall, ap float64
-	for i := len(o.scores) - 1; i >= 0; {
-		j := i
 		for ; j >= 0 && o.scores[j] == o.scores[i]; j-- {
+			w := counts[o.cust[j]]
 			if o.labels[j] {
-				tp += o.w[j]
+				gp += w
 			} else {
-				fp += o.w[j]
+				gn += w
 			}
+			sb += w * o.sq[j]
+			sl += w * o.ll[j]
 		}
-		if tp+fp > 0 {
-			recall := tp / wp
-			ap += (recall - prevRecall) * tp / (tp + fp)
-			prevRecall = recall
+		right += gn * (posAbove + gp/2)
+		posAbove += gp
+		negAbove += gn
+		if gp > 0 {
+			apSum += gp * posAbove / (posAbove + negAbove)
 		}
 		i = j
 	}
-	return ap
-}
-
-// brierAndLogLoss returns both probability scores of the current weights.
-func (o *sorted) brierAndLogLoss() (float64, float64) {
-	var sb, sl, n float64
-	for k, wk := range o.w {
-		sb += wk * o.sq[k]
-		sl += wk * o.ll[k]
-		n += wk
+	total := posAbove + negAbove
+	brier, logLoss = sb/total, sl/total
+	auc, ap = math.NaN(), math.NaN()
+	if posAbove > 0 && negAbove > 0 {
+		auc = right / (posAbove * negAbove)
 	}
-	return sb / n, sl / n
+	if posAbove > 0 {
+		ap = apSum / posAbove
+	}
+	return auc, ap, brier, logLoss
 }
