@@ -11,6 +11,8 @@ import (
 	"math/rand/v2"
 	"slices"
 	"strconv"
+	"strings"
+	"sync"
 	"time"
 
 	"ebb/internal/bgnbd"
@@ -334,64 +336,31 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		rep.TruthROCAUC = truthAUC(opt.Truth, testF, keys, def.HorizonDays, testLabels)
 	}
 	bopt := evaluate.BootstrapOptions{Replicates: opt.Bootstrap, Seed1: opt.Seed, Seed2: 0x65626221}
-	var baselineScores []float64
-	var ranked []store.RankedList
-	rounds := map[string]int{}
-	testScores := map[string][]float64{}
-	type trained struct {
-		name string
-		m    *model.Model
-	}
-	var models []trained
 	spec := fitSpec{h: h, windowDays: def.WindowDays, horizonDays: def.HorizonDays, c: opt.C, seed: opt.Seed,
 		bgnbdThrough: firstOf(dates, parts, snapshots.Validation)}
-	for i, name := range opt.Models {
-		progress(20+60*float64(i)/float64(len(opt.Models)), "training "+name)
-		m, err := trainModel(name, trainF, validF, spec)
-		if err != nil {
-			return 0, nil, err
-		}
-		if m.Trees != nil {
-			rounds[name] = len(m.Trees.Trees)
-		}
-		if err := m.Calibrate(model.CalibrationKind(opt.Calibration), validF); err != nil {
-			return 0, nil, err
-		}
-		stage("train_" + name)
-		scores, err := m.Predict(testF)
-		if err != nil {
-			return 0, nil, err
-		}
-		mr, err := evaluateModel(name, m, scores, testF, testLabels, clusters, def.HorizonDays, opt, bopt, &ranked)
-		if err != nil {
-			return 0, nil, err
-		}
-		testScores[name] = scores
-		if name == "baseline" {
-			baselineScores = scores
-		} else if baselineScores != nil {
-			diff, err := evaluate.PairedAUC(scores, baselineScores, testLabels, clusters, bopt)
-			if err == nil {
-				mr.AUCvsBaseline = &diff
-			}
-		}
-		rep.Models = append(rep.Models, mr)
-		models = append(models, trained{name, m})
-		stage("evaluate_" + name)
-	}
 
-	if slices.Contains(opt.Models, "logistic") {
-		progress(80, "checking the row cap")
-		if rep.CapCheck, err = capCheck(tab, fr, train, validF, testF, testLabels, spec, opt); err != nil {
-			return 0, nil, err
+	// Each model trains, calibrates and is scored on its own goroutine:
+	// the models are independent, and one model's serial stretches leave a
+	// core idle that another can use. Results keep the order of opt.Models.
+	progress(20, "training "+strings.Join(opt.Models, ", "))
+	fits := make([]modelFit, len(opt.Models))
+	parallel(len(opt.Models), func(i int) error {
+		fits[i] = fitAndEvaluate(opt.Models[i], trainF, validF, testF, testLabels, spec, opt)
+		return fits[i].err
+	})
+	var ranked []store.RankedList
+	testScores := map[string][]float64{}
+	for _, f := range fits {
+		if f.err != nil {
+			return 0, nil, f.err
 		}
-		for _, m := range rep.Models {
-			if m.Name == "logistic" {
-				rep.CapCheck.ROCAUC = m.ROCAUC.Estimate
-			}
-		}
-		stage("cap_check")
+		rep.Models = append(rep.Models, f.report)
+		ranked = append(ranked, f.ranked...)
+		testScores[f.report.Name] = f.scores
+		rep.Seconds["train_"+f.report.Name] = f.trainSeconds
+		rep.Seconds["evaluate_"+f.report.Name] = f.evalSeconds
 	}
+	stage("models")
 
 	// The evaluated rows are kept with the run (for the models page's
 	// download) and written to TestRows when asked.
@@ -406,41 +375,67 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	}
 
 	if opt.Folds > 1 {
-		progress(80, "earlier folds")
+		progress(70, "earlier folds")
 		if rep.Folds, err = earlierFolds(fr, tab, dates, spec, opt); err != nil {
 			return 0, nil, err
 		}
 		stage("folds")
 	}
 
-	// Refit for lists on every labelled date before the latest slice, and
-	// recalibrate on it.
-	progress(85, "refitting on all labelled snapshots")
+	// Then, side by side: the intervals (one set of resampled customers
+	// serves every model and every paired difference from the baseline),
+	// the row-cap check, and the refit for lists of every model on every
+	// labelled date before the latest slice, recalibrated on that slice.
+	progress(75, "intervals and refitting on all labelled snapshots")
 	refitF, sliceF := subset(fr, refit), subset(fr, latestSlice)
 	rep.RefitOnDates = rep.Dates[snapshots.Train.String()] + rep.Dates[snapshots.Validation.String()] + rep.Dates[snapshots.Dropped.String()]
 	rep.CalibratedOnDate = fmt.Sprintf("%s to %s", tab.Date[latestSlice[0]], latest)
+	refitSpec := spec
+	refitSpec.bgnbdThrough = firstOf(dates, parts, snapshots.Test)
+	meta := model.Meta{ChurnDefinitionVersion: strconv.Itoa(def.Seq), DatasetVersion: strconv.Itoa(d.Seq), Seed: opt.Seed}
+	refits := make([][]byte, len(fits))
+	var ivs []evaluate.Intervals
+	var vsBase []evaluate.Interval
+	n := len(fits)
+	err = parallel(n+2, func(i int) error {
+		var err error
+		switch {
+		case i < n:
+			refits[i], err = refitModel(fits[i], refitF, sliceF, refitSpec, meta, opt)
+		case i == n:
+			all := make([][]float64, n)
+			for k, f := range fits {
+				all[k] = f.scores
+			}
+			ivs, vsBase, err = evaluate.BootstrapMany(all, testLabels, clusters, slices.Index(opt.Models, "baseline"), bopt)
+			if err != nil {
+				err = fmt.Errorf("evaluate: %w", err)
+			}
+		case slices.Contains(opt.Models, "logistic"):
+			rep.CapCheck, err = capCheck(tab, fr, train, validF, testF, testLabels, spec, opt)
+		}
+		return err
+	})
+	if err != nil {
+		return 0, nil, err
+	}
+	for i := range rep.Models {
+		mr := &rep.Models[i]
+		mr.ROCAUC, mr.AveragePrecision, mr.Brier, mr.LogLoss = ivs[i].ROCAUC, ivs[i].AveragePrecision, ivs[i].Brier, ivs[i].LogLoss
+		if vsBase != nil && mr.Name != "baseline" {
+			mr.AUCvsBaseline = &vsBase[i]
+		}
+		if c := rep.CapCheck; c != nil && mr.Name == c.Model {
+			c.ROCAUC = mr.ROCAUC.Estimate
+		}
+	}
 	var stored []store.StoredModel
 	order := bestFirst(rep.Models)
 	for _, i := range order {
-		t := models[i]
-		refitSpec := spec
-		refitSpec.rounds, refitSpec.bgnbdThrough = max(rounds[t.name], 1), firstOf(dates, parts, snapshots.Test)
-		m, err := trainModel(t.name, refitF, nil, refitSpec)
-		if err != nil {
-			return 0, nil, err
-		}
-		if err := m.Calibrate(model.CalibrationKind(opt.Calibration), sliceF); err != nil {
-			return 0, nil, err
-		}
-		m.Meta = model.Meta{ChurnDefinitionVersion: strconv.Itoa(def.Seq), DatasetVersion: strconv.Itoa(d.Seq), Seed: opt.Seed}
-		body, err := m.Save()
-		if err != nil {
-			return 0, nil, err
-		}
 		summary, _ := json.Marshal(rep.Models[i])
-		stored = append(stored, store.StoredModel{Name: t.name, Kind: string(m.Kind), Model: body, Summary: summary})
+		stored = append(stored, store.StoredModel{Name: fits[i].report.Name, Kind: string(fits[i].m.Kind), Model: refits[i], Summary: summary})
 	}
-	stage("refit")
+	stage("intervals_and_refit")
 	progress(97, "saving")
 	optJSON, err := json.Marshal(opt)
 	if err != nil {
@@ -492,6 +487,85 @@ func bestFirst(ms []ModelReport) []int {
 		return 0
 	})
 	return idx
+}
+
+// modelFit is one model trained, calibrated and evaluated on the test rows.
+type modelFit struct {
+	m                         *model.Model
+	report                    ModelReport
+	scores                    []float64 // calibrated, on the test rows
+	ranked                    []store.RankedList
+	trainSeconds, evalSeconds float64
+	err                       error
+}
+
+// fitAndEvaluate trains one model, calibrates it on the validation slice
+// and evaluates it on the test rows (point figures; intervals come later).
+func fitAndEvaluate(name string, trainF, validF, testF *frame.Frame, labels []bool, spec fitSpec, opt TrainOptions) modelFit {
+	var f modelFit
+	t0 := clockOf(opt)
+	m, err := trainModel(name, trainF, validF, spec)
+	if err != nil {
+		f.err = err
+		return f
+	}
+	if err := m.Calibrate(model.CalibrationKind(opt.Calibration), validF); err != nil {
+		f.err = err
+		return f
+	}
+	t1 := clockOf(opt)
+	f.m = m
+	if f.scores, err = m.Predict(testF); err != nil {
+		f.err = err
+		return f
+	}
+	f.report, f.err = evaluateModel(name, m, f.scores, testF, labels, spec.horizonDays, opt, &f.ranked)
+	t2 := clockOf(opt)
+	f.trainSeconds, f.evalSeconds = t1.Sub(t0).Seconds(), t2.Sub(t1).Seconds()
+	return f
+}
+
+// refitModel refits an evaluated model on refitF (the trees keep the
+// number of rounds early stopping chose), recalibrates it on sliceF and
+// encodes it.
+func refitModel(f modelFit, refitF, sliceF *frame.Frame, spec fitSpec, meta model.Meta, opt TrainOptions) ([]byte, error) {
+	if f.m.Trees != nil {
+		spec.rounds = max(len(f.m.Trees.Trees), 1)
+	}
+	m, err := trainModel(f.report.Name, refitF, nil, spec)
+	if err != nil {
+		return nil, err
+	}
+	if err := m.Calibrate(model.CalibrationKind(opt.Calibration), sliceF); err != nil {
+		return nil, err
+	}
+	m.Meta = meta
+	return m.Save()
+}
+
+// clockOf reads the options' clock (the zero time without one).
+func clockOf(opt TrainOptions) time.Time {
+	if opt.Clock == nil {
+		return time.Time{}
+	}
+	return opt.Clock()
+}
+
+// parallel runs fn(0) … fn(n−1) on their own goroutines and returns the
+// error of the lowest index that failed.
+func parallel(n int, fn func(i int) error) error {
+	errs := make([]error, n)
+	var wg sync.WaitGroup
+	for i := range n {
+		wg.Go(func() { errs[i] = fn(i) })
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // bgnbdSample bounds the customers a BG/NBD fit reads (see
@@ -549,17 +623,12 @@ func trainModel(name string, train, valid *frame.Frame, spec fitSpec) (*model.Mo
 	return nil, problem.New(problem.Invalid, "unknown model %q (want baseline, logistic, trees or bgnbd)", name)
 }
 
-func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.Frame, labels []bool, clusters []int, horizon int,
-	opt TrainOptions, bopt evaluate.BootstrapOptions, ranked *[]store.RankedList) (ModelReport, error) {
+// evaluateModel gives one model's point figures on the test rows; the
+// intervals come after every model is scored (evaluate.BootstrapMany).
+func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.Frame, labels []bool, horizon int,
+	opt TrainOptions, ranked *[]store.RankedList) (ModelReport, error) {
 	mr := ModelReport{Name: name}
 	var err error
-	// One sort serves every replicate of all four metrics (see
-	// evaluate.BootstrapAll); the intervals equal evaluate.Bootstrap's.
-	ivs, err := evaluate.BootstrapAll(scores, labels, clusters, bopt)
-	if err != nil {
-		return mr, fmt.Errorf("evaluate %s: %w", name, err)
-	}
-	mr.ROCAUC, mr.AveragePrecision, mr.Brier, mr.LogLoss = ivs.ROCAUC, ivs.AveragePrecision, ivs.Brier, ivs.LogLoss
 	// First-time (one order day) and repeat customers separately.
 	total, _ := testF.Col("order_days_total")
 	var s1, s2 []float64
@@ -583,6 +652,8 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 		days = append(days, d)
 	}
 	slices.Sort(days)
+	// One ranking per test date serves the stored summary and every list size.
+	var rankings []*evaluate.Ranking
 	for _, d := range days {
 		rows := byDate[d]
 		sc := make([]float64, len(rows))
@@ -597,22 +668,14 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 		}
 		*ranked = append(*ranked, store.RankedList{Model: name, Day: civil.Date(d).String(), Customers: len(rows), Positives: pos,
 			Data: encodeRanked(sc, lb, keys)})
+		if rk, err := evaluate.NewRanking(sc, lb, keys); err == nil {
+			rankings = append(rankings, rk) // a date whose customers all ordered again has no recall
+		}
 	}
 	for _, pct := range []float64{5, 10, 20} {
 		var lists []evaluate.List
 		var lastList evaluate.List
-		for _, d := range days {
-			rows := byDate[d]
-			sc := make([]float64, len(rows))
-			lb := make([]bool, len(rows))
-			keys := make([]uint64, len(rows))
-			for k, r := range rows {
-				sc[k], lb[k], keys[k] = scores[r], labels[r], tieKey(opt.Seed, testF.Customers()[r])
-			}
-			rk, err := evaluate.NewRanking(sc, lb, keys)
-			if err != nil {
-				continue // a date whose customers all ordered again has no recall
-			}
+		for _, rk := range rankings {
 			l, err := rk.TopPercent(pct)
 			if err != nil {
 				return mr, fmt.Errorf("evaluate %s: top %g%%: %w", name, pct, err)
@@ -665,7 +728,7 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 		}
 	}
 	if m.Kind == model.KindLogistic {
-		if mr.Importance, err = permutationImportance(m, testF, labels, mr.ROCAUC.Estimate, opt.Seed); err != nil {
+		if mr.Importance, err = permutationImportance(m, testF, labels, opt.Seed); err != nil {
 			return mr, fmt.Errorf("evaluate %s: importance: %w", name, err)
 		}
 	}
@@ -828,9 +891,37 @@ func TrainJob(st *store.Store, cache *Histories, now func() time.Time, truth fun
 	}
 }
 
-// permutationImportance shuffles one feature at a time across the test
-// rows (seeded) and reports how much the model's ROC AUC drops.
-func permutationImportance(m *model.Model, testF *frame.Frame, labels []bool, auc float64, seed uint64) ([]Coefficient, error) {
+// importanceRows bounds the test rows permutation importance shuffles:
+// a drop in AUC is measured well on 50k rows, at a quarter of the cost.
+const importanceRows = 50_000
+
+// permutationImportance shuffles one feature at a time across (a customer
+// sample of at most importanceRows of) the test rows, seeded, and reports
+// how much the model's ROC AUC drops.
+func permutationImportance(m *model.Model, testF *frame.Frame, labels []bool, seed uint64) ([]Coefficient, error) {
+	if n := testF.Rows(); n > importanceRows {
+		limit := uint64(float64(importanceRows) / float64(n) * float64(^uint64(0)))
+		var rows []int
+		for i, c := range testF.Customers() {
+			if tieKey(seed+2, c) < limit {
+				rows = append(rows, i)
+			}
+		}
+		testF = subset(testF, rows)
+		sub := make([]bool, len(rows))
+		for k, i := range rows {
+			sub[k] = labels[i]
+		}
+		labels = sub
+	}
+	base, err := m.Predict(testF)
+	if err != nil {
+		return nil, err
+	}
+	auc, err := evaluate.ROCAUC(base, labels)
+	if err != nil {
+		return nil, err
+	}
 	names := testF.Names()
 	cols := make([][]float64, len(names))
 	for j := range names {
