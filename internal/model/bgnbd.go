@@ -54,7 +54,10 @@ func (b *BGNBD) Score(f *frame.Frame, dst []float64) ([]float64, error) {
 	p, h := b.Params, b.HorizonDays
 	fresh := math.Exp(p.R * math.Log(p.Alpha/(p.Alpha+h)))
 	for i := range dst {
-		n, age, rec := cols[0][i], cols[1][i], cols[2][i]
+		// Clamped to a possible summary: at least one order day, the last
+		// no earlier than the first (occlusion can mix customers' values).
+		n, age, rec := max(cols[0][i], 1), max(cols[1][i], 0), max(cols[2][i], 0)
+		rec = min(rec, age)
 		if age == 0 {
 			dst[i] = fresh
 			continue

@@ -876,13 +876,3 @@ func TrainTrees(train *frame.Frame, features []string, valid *frame.Frame, opt T
 	}
 	return &Model{Kind: KindTrees, Features: append([]string(nil), features...), Trees: t}, nil
 }
-
-// Contributions returns the per-feature path-based contributions to the raw
-// score (log-odds) of every row of f, row-major in the order of
-// m.Features, and the bias they start from; trees models only.
-func (m *Model) Contributions(f *frame.Frame) (bias float64, contrib []float64, err error) {
-	if m.Kind != KindTrees {
-		return 0, nil, fmt.Errorf("contributions: model kind %q has none", m.Kind)
-	}
-	return m.Trees.Contributions(f)
-}

@@ -276,7 +276,7 @@ func TestTreesContributionsSumToRawScore(t *testing.T) {
 		t.Errorf("mean |contribution| %v: x1, x2 should exceed the noise", mean)
 	}
 	if _, _, err := (&Model{Kind: KindLogistic}).Contributions(test); err == nil {
-		t.Error("logistic model gave tree contributions")
+		t.Error("a logistic model without parameters gave contributions")
 	}
 }
 
