@@ -2,6 +2,9 @@ package lists
 
 import (
 	"cmp"
+	"crypto/hmac"
+	"crypto/sha256"
+	"encoding/binary"
 	"fmt"
 	"slices"
 
@@ -128,4 +131,16 @@ func Ranked(cands []Candidate) []int {
 		return cmp.Compare(a.Customer, b.Customer)
 	})
 	return idx
+}
+
+// TieKey is the keyed hash that orders customers with equal scores: the
+// first 8 bytes of HMAC-SHA256 (RFC 2104) under the dataset's salt of
+// "tie:" and the customer key, so ties never follow input order and are
+// not guessable without the salt. The prefix keeps it apart from the
+// holdout's hash.
+func TieKey(salt []byte, customerKey string) uint64 {
+	mac := hmac.New(sha256.New, salt)
+	mac.Write([]byte("tie:"))
+	mac.Write([]byte(customerKey))
+	return binary.BigEndian.Uint64(mac.Sum(nil))
 }
