@@ -33,7 +33,7 @@ type command struct {
 }
 
 func commands() []command {
-	return []command{serveCommand(), importCommand(), windowCommand(), trainCommand(), modelCommand(), demoCommand(), healthCommand()}
+	return []command{serveCommand(), importCommand(), windowCommand(), trainCommand(), modelCommand(), scoreCommand(), demoCommand(), healthCommand()}
 }
 
 // errShown marks an error whose details were already printed.
