@@ -72,6 +72,23 @@ func (s *Server) handleJobShow(w http.ResponseWriter, r *http.Request) {
 			v.ResultURL, v.ResultLabel = fmt.Sprintf("/datasets/%d/models", res.DatasetID), "Open the models"
 		}
 	}
+	if (j.Kind == analysis.KindScore || j.Kind == analysis.KindScheduledList) && j.Status == jobs.Done {
+		var res analysis.ScheduledResult
+		if json.Unmarshal(j.Result, &res) == nil {
+			if res.Note != "" {
+				v.Summary = append(v.Summary, res.Note)
+			}
+			if res.ListID != 0 && res.Summary != nil {
+				state := "drafted; review and publish it"
+				if res.Published {
+					state = "published"
+				}
+				v.Summary = append(v.Summary, fmt.Sprintf("The list is %s: %s selected, %s to contact, %s held out.", state,
+					views.Count(res.Summary.Selected), views.Count(res.Summary.Contact), views.Count(res.Summary.Holdout)))
+				v.ResultURL, v.ResultLabel = listPath(res.ListID), "Open the list"
+			}
+		}
+	}
 	if j.Kind == analysis.KindWindow && j.Status == jobs.Done {
 		var res analysis.WindowJobResult
 		if json.Unmarshal(j.Result, &res) == nil {

@@ -38,6 +38,7 @@ type testEnv struct {
 	runner   *jobs.Runner
 	accounts *auth.Accounts
 	sessions *auth.Sessions
+	tokens   *auth.Tokens
 	users    map[string]auth.User // by role name: "viewer", "analyst", "admin"
 	clock    *clock
 	logs     *bytes.Buffer
@@ -73,6 +74,8 @@ func newEnv(t *testing.T, withDemo bool) *testEnv {
 	hc := history.NewCache(2)
 	e.runner.Register(analysis.KindWindow, analysis.WindowJob(st, hc, c.now))
 	e.runner.Register(analysis.KindTrain, analysis.TrainJob(st, hc, c.now, nil))
+	e.runner.Register(analysis.KindScore, analysis.ScoreJob(st, hc, c.now))
+	e.runner.Register(analysis.KindScheduledList, analysis.ScheduledListJob(st, hc, c.now))
 	if _, err := e.runner.Start(ctx); err != nil {
 		t.Fatal(err)
 	}
@@ -96,7 +99,8 @@ func newEnv(t *testing.T, withDemo bool) *testEnv {
 			t.Fatal(err)
 		}
 	}
-	e.server = New(st, e.accounts, e.sessions, e.runner, log, Config{UploadDir: dir + "/uploads", MaxUpload: 8 << 20, Now: c.now})
+	e.tokens = &auth.Tokens{Store: st, Now: c.now}
+	e.server = New(st, e.accounts, e.sessions, e.tokens, e.runner, log, Config{UploadDir: dir + "/uploads", MaxUpload: 8 << 20, Now: c.now})
 	e.srv = httptest.NewServer(e.server)
 	t.Cleanup(e.srv.Close)
 	return e

@@ -21,11 +21,16 @@ var access = map[string]auth.Role{
 	"POST /signin":        0,
 	"GET /setup/{token}":  0,
 	"POST /setup/{token}": 0,
+	// Guarded by a bearer token instead of a session (see tokens_test.go).
+	"GET /api/v1/datasets/{name}/lists/latest.csv": 0,
 
 	"GET /":                  auth.Viewer,
 	"POST /signout":          auth.Viewer,
 	"GET /account":           auth.Viewer,
 	"POST /account/password": auth.Viewer,
+	"GET /lists":             auth.Viewer,
+	"GET /lists/{id}":        auth.Viewer,
+	"GET /lists/{id}/{file}": auth.Viewer,
 
 	"GET /datasets":                           auth.Analyst,
 	"GET /datasets/{id}":                      auth.Analyst,
@@ -51,12 +56,21 @@ var access = map[string]auth.Role{
 	"GET /jobs/{id}/status":                   auth.Analyst,
 	"POST /jobs/{id}/cancel":                  auth.Analyst,
 	"POST /jobs/{id}/rerun":                   auth.Analyst,
+	"GET /datasets/{id}/lists/new":            auth.Analyst,
+	"POST /datasets/{id}/lists":               auth.Analyst,
+	"POST /lists/{id}/publish":                auth.Analyst,
+	"POST /lists/{id}/discard":                auth.Analyst,
+	"GET /datasets/{id}/schedule":             auth.Analyst,
+	"POST /datasets/{id}/schedule":            auth.Analyst,
 
 	"GET /admin/users":               auth.Admin,
 	"POST /admin/users":              auth.Admin,
 	"POST /admin/users/{id}/disable": auth.Admin,
 	"POST /admin/users/{id}/enable":  auth.Admin,
 	"POST /admin/users/{id}/reset":   auth.Admin,
+	"GET /admin/tokens":              auth.Admin,
+	"POST /admin/tokens":             auth.Admin,
+	"POST /admin/tokens/{id}/revoke": auth.Admin,
 }
 
 func routes(t *testing.T, s *Server) []string {

@@ -44,6 +44,16 @@ type Store interface {
 	UseModel(ctx context.Context, id int64) error
 	RankedLists(ctx context.Context, runID int64, model string) ([]store.RankedList, error)
 	TestRows(ctx context.Context, runID int64) ([]byte, error)
+	DatasetByName(ctx context.Context, name string) (store.Dataset, error)
+	Lists(ctx context.Context, datasetID int64, withDrafts bool) ([]store.List, error)
+	ListByID(ctx context.Context, id int64) (store.List, error)
+	LatestPublishedList(ctx context.Context, datasetID int64) (store.List, error)
+	ListRows(ctx context.Context, f store.ListFilter) ([]store.ListedCustomer, int, error)
+	EachListRow(ctx context.Context, datasetID, listID int64, statuses []int, fn func(store.ListedCustomer) error) error
+	PublishList(ctx context.Context, id int64, by string, at time.Time) error
+	DeleteDraftList(ctx context.Context, id int64) error
+	ScheduleOf(ctx context.Context, datasetID int64) (store.Schedule, error)
+	SaveSchedule(ctx context.Context, sc store.Schedule) error
 }
 
 // Jobs is what the handlers need from the job runner.
@@ -67,6 +77,7 @@ type Server struct {
 	store    Store
 	accounts *auth.Accounts
 	sessions *auth.Sessions
+	tokens   *auth.Tokens
 	jobs     Jobs
 	log      *slog.Logger
 	cfg      Config
@@ -74,14 +85,14 @@ type Server struct {
 }
 
 // New returns a server.
-func New(st Store, accounts *auth.Accounts, sessions *auth.Sessions, jr Jobs, log *slog.Logger, cfg Config) *Server {
+func New(st Store, accounts *auth.Accounts, sessions *auth.Sessions, tokens *auth.Tokens, jr Jobs, log *slog.Logger, cfg Config) *Server {
 	if cfg.MaxUpload <= 0 {
 		cfg.MaxUpload = 1 << 30
 	}
 	if cfg.Now == nil {
 		cfg.Now = time.Now
 	}
-	s := &Server{store: st, accounts: accounts, sessions: sessions, jobs: jr, log: log, cfg: cfg}
+	s := &Server{store: st, accounts: accounts, sessions: sessions, tokens: tokens, jobs: jr, log: log, cfg: cfg}
 	s.router = s.routes()
 	return s
 }
@@ -109,6 +120,8 @@ func (s *Server) routes() chi.Router {
 	r.Post("/signin", s.handleSignIn)
 	r.Get("/setup/{token}", s.handleSetupForm)
 	r.Post("/setup/{token}", s.handleSetup)
+	// Campaign tools, with a bearer token instead of a session.
+	r.Get("/api/v1/datasets/{name}/lists/latest.csv", s.handleAPILatestList)
 
 	r.Group(func(r chi.Router) {
 		r.Use(s.require(auth.Viewer))
@@ -116,6 +129,9 @@ func (s *Server) routes() chi.Router {
 		r.Post("/signout", s.handleSignOut)
 		r.Get("/account", s.handleAccount)
 		r.Post("/account/password", s.handlePasswordChange)
+		r.Get("/lists", s.handleLists)
+		r.Get("/lists/{id}", s.handleListShow)
+		r.Get("/lists/{id}/{file}", s.handleListExport)
 	})
 
 	r.Group(func(r chi.Router) {
@@ -133,6 +149,12 @@ func (s *Server) routes() chi.Router {
 		r.Get("/datasets/{id}/models/{chart}", s.handleModelChart)
 		r.Get("/datasets/{id}/test-rows.csv", s.handleTestRows)
 		r.Post("/models/{id}/use", s.handleModelUse)
+		r.Get("/datasets/{id}/lists/new", s.handleListForm)
+		r.Post("/datasets/{id}/lists", s.handleListDraft)
+		r.Post("/lists/{id}/publish", s.handleListPublish)
+		r.Post("/lists/{id}/discard", s.handleListDiscard)
+		r.Get("/datasets/{id}/schedule", s.handleScheduleShow)
+		r.Post("/datasets/{id}/schedule", s.handleScheduleSave)
 		r.Get("/datasets/{id}/window/{chart}", s.handleWindowChart)
 		r.Get("/uploads/new", s.handleUploadForm)
 		r.Post("/uploads", s.handleUpload)
@@ -153,6 +175,9 @@ func (s *Server) routes() chi.Router {
 		r.Post("/admin/users/{id}/disable", s.handleUserDisable)
 		r.Post("/admin/users/{id}/enable", s.handleUserEnable)
 		r.Post("/admin/users/{id}/reset", s.handleUserReset)
+		r.Get("/admin/tokens", s.handleTokens)
+		r.Post("/admin/tokens", s.handleTokenCreate)
+		r.Post("/admin/tokens/{id}/revoke", s.handleTokenRevoke)
 	})
 	return r
 }

@@ -150,6 +150,8 @@ func serve(ctx context.Context, e env, o serveOptions) error {
 		}
 		return demoTruth()
 	}))
+	runner.Register(analysis.KindScore, analysis.ScoreJob(st, histories, now))
+	runner.Register(analysis.KindScheduledList, analysis.ScheduledListJob(st, histories, now))
 	if n, err := runner.Start(ctx); err != nil {
 		return err
 	} else if n > 0 {
@@ -175,9 +177,34 @@ func serve(ctx context.Context, e env, o serveOptions) error {
 	if err := setupLink(ctx, e, st, base); err != nil {
 		return err
 	}
-	srv := web.New(st, accounts, sessions, runner, log, web.Config{UploadDir: o.uploads, MaxUpload: int64(o.maxUploadMiB) << 20, Now: now})
+	tokens := &auth.Tokens{Store: st, Now: now}
+	srv := web.New(st, accounts, sessions, tokens, runner, log, web.Config{UploadDir: o.uploads, MaxUpload: int64(o.maxUploadMiB) << 20, Now: now})
+	go runSchedules(ctx, st, runner, now, log)
 	fmt.Fprintf(e.stdout, "ebb is serving %s/ (database %s); press Ctrl+C to stop\n", base, o.db)
 	return serveHTTP(ctx, ln, srv, log)
+}
+
+// runSchedules queues the weekly list runs that are due: at start (so a
+// slot missed while the server was down runs once now) and every half
+// minute after.
+func runSchedules(ctx context.Context, st *store.Store, q analysis.Submitter, now func() time.Time, log *slog.Logger) {
+	tick := time.NewTicker(30 * time.Second)
+	defer tick.Stop()
+	for {
+		if n, err := analysis.RunDueSchedules(ctx, st, q, now(), 10*time.Minute); err != nil {
+			if ctx.Err() != nil {
+				return
+			}
+			log.Error("scheduled lists", "err", err)
+		} else if n > 0 {
+			log.Info("scheduled lists queued", "count", n)
+		}
+		select {
+		case <-ctx.Done():
+			return
+		case <-tick.C:
+		}
+	}
 }
 
 const settingSessionKey = "session_key"

@@ -19,11 +19,16 @@ const (
 	ExportHoldout = "holdout" // the holdout, for suppression in other campaigns
 )
 
+// ListRowReader reads a list's rows (store.Store does).
+type ListRowReader interface {
+	EachListRow(ctx context.Context, datasetID, listID int64, statuses []int, fn func(store.ListedCustomer) error) error
+}
+
 // ExportList streams a list's customers to w: the ones to contact (CSV or
 // JSON, with the chosen attribute columns after the fixed ones) or the
 // holdout (CSV). Customers who may not be contacted are never written. It
 // reads and writes a row at a time, so memory stays flat.
-func ExportList(ctx context.Context, st *store.Store, l store.List, format string, attrs []string, w io.Writer) error {
+func ExportList(ctx context.Context, st ListRowReader, l store.List, format string, attrs []string, w io.Writer) error {
 	var sum ListSummary
 	if err := json.Unmarshal(l.Summary, &sum); err != nil {
 		return fmt.Errorf("list %d: %w", l.ID, err)

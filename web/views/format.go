@@ -69,3 +69,5 @@ func Bytes(n int64) string {
 	}
 	return strconv.FormatFloat(f, 'f', 1, 64) + " " + units[i]
 }
+
+func tokenRevokeURL(id int64) string { return "/admin/tokens/" + strconv.FormatInt(id, 10) + "/revoke" }
