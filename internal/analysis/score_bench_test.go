@@ -1,0 +1,71 @@
+package analysis_test
+
+import (
+	"bytes"
+	"context"
+	"io"
+	"path/filepath"
+	"testing"
+	"time"
+
+	"ebb/demo"
+	"ebb/internal/analysis"
+	"ebb/internal/history"
+	"ebb/internal/store"
+)
+
+// BenchmarkScoreList drafts a list of every eligible customer with the
+// trees model and reasons, on the demo business grown to 800k customers
+// (about 3.9M orders) and a 120-day window, so that over 200k customers are
+// active; then it exports the customers to contact as CSV. It reports the
+// active customers scored, the scoring seconds and the export's rows per
+// second.
+func BenchmarkScoreList(b *testing.B) {
+	if testing.Short() {
+		b.Skip("imports a 3.9M-order demo; skipped under -short")
+	}
+	ctx := context.Background()
+	now := time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
+	st, err := store.Open(ctx, filepath.Join(b.TempDir(), "score.db"), store.Options{Now: func() time.Time { return now }})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer st.Close()
+	biz := demo.Generate(demo.Options{Customers: 800_000})
+	var orders, customers bytes.Buffer
+	biz.WriteOrders(&orders)
+	biz.WriteCustomers(&customers)
+	res, err := analysis.Import(ctx, st, analysis.ImportRequest{Dataset: "big", Orders: analysis.Source{Name: "orders.csv", R: &orders},
+		Customers: &analysis.Source{Name: "customers.csv", R: &customers}, Now: now})
+	if err != nil {
+		b.Fatal(err)
+	}
+	id := res.Import.DatasetID
+	if _, err := analysis.SaveDefinition(ctx, st, id, analysis.DefinitionInput{WindowDays: 120, Rationale: "benchmark"}, "bench", now); err != nil {
+		b.Fatal(err)
+	}
+	cache := history.NewCache(1)
+	if _, _, err := analysis.Train(ctx, st, cache, id, analysis.TrainOptions{Models: []string{"trees"}, Bootstrap: 20}, "bench", now, nil); err != nil {
+		b.Fatal(err)
+	}
+	b.ResetTimer()
+	for range b.N {
+		start := time.Now()
+		out, err := analysis.Score(ctx, st, cache, analysis.ScoreRequest{DatasetID: id, Rule: analysis.ListRule{UseThreshold: true}, By: "bench", Now: now}, nil)
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.ReportMetric(time.Since(start).Seconds(), "score_s")
+		b.ReportMetric(float64(out.Summary.Active), "active")
+		l, err := st.ListByID(ctx, out.ListID)
+		if err != nil {
+			b.Fatal(err)
+		}
+		start = time.Now()
+		if err := analysis.ExportList(ctx, st, l, analysis.ExportCSV, []string{"region"}, io.Discard); err != nil {
+			b.Fatal(err)
+		}
+		b.ReportMetric(float64(out.Summary.Contact)/time.Since(start).Seconds(), "export_rows/s")
+		b.ReportMetric(float64(out.Summary.Contact), "exported")
+	}
+}
