@@ -49,7 +49,7 @@ func (s *Server) handleLists(w http.ResponseWriter, r *http.Request) {
 			}
 		}
 		for _, l := range ls[:min(len(ls), 20)] {
-			sum := listSummary(l)
+			sum := analysis.SummaryOf(l)
 			line := views.ListLine{ID: l.ID, AsOf: l.AsOf.String(), State: listState(l), Model: fmt.Sprintf("%s (%d)", sum.Model, sum.ModelID),
 				Rule: sum.RuleText, Selected: views.Count(sum.Selected), Contact: views.Count(sum.Contact), Holdout: views.Count(sum.Holdout)}
 			if l.Published {
@@ -69,13 +69,6 @@ func listState(l store.List) string {
 	return "draft"
 }
 
-// listSummary decodes a list's summary; a damaged one shows as empty
-// figures rather than failing the page.
-func listSummary(l store.List) analysis.ListSummary {
-	var sum analysis.ListSummary
-	json.Unmarshal(l.Summary, &sum)
-	return sum
-}
 
 // listFormDefaults are the draft form's starting values.
 var listFormDefaults = views.ListFormView{Mode: "size", Size: "500", Threshold: "0.5", Cost: "2", Value: "40", Save: "0.2",
@@ -251,7 +244,7 @@ func (s *Server) handleListShow(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	u, _ := currentUser(r)
-	sum := listSummary(l)
+	sum := analysis.SummaryOf(l)
 	v := views.ListView{Chrome: s.chrome(w, r, "List of "+l.AsOf.String()+" · "+d.Name, "lists"), ID: l.ID, DatasetID: d.ID, Dataset: d.Name,
 		AsOf: l.AsOf.String(), Draft: !l.Published, CanPublish: !l.Published && u.Role.Allows(auth.Analyst),
 		AttrNames: sum.Attributes, ExportBase: listPath(l.ID)}
@@ -409,7 +402,7 @@ func (s *Server) handleListExport(w http.ResponseWriter, r *http.Request) {
 // streamList sends an export; nothing is written before the export has
 // checked its options, so a bad option still gets a clean error page.
 func (s *Server) streamList(w http.ResponseWriter, r *http.Request, l store.List, format, filename string, attrs []string) {
-	sum := listSummary(l)
+	sum := analysis.SummaryOf(l)
 	for _, a := range attrs {
 		if !slices.Contains(sum.Attributes, a) {
 			s.fail(w, r, problem.New(problem.Invalid, "this dataset's customers have no attribute %q", a))

@@ -9,7 +9,6 @@ import (
 	"strconv"
 	"time"
 
-	"ebb/internal/bgnbd"
 	"ebb/internal/civil"
 	"ebb/internal/frame"
 	"ebb/internal/history"
@@ -127,8 +126,11 @@ type ListSummary struct {
 	MDE     float64 `json:"mde"`
 	MDENote string  `json:"mde_note,omitempty"`
 	// Changes since the previous published list (nil for the first).
-	Changes    *ListChanges `json:"changes,omitempty"`
-	Attributes []string     `json:"attributes,omitempty"`
+	Changes *ListChanges `json:"changes,omitempty"`
+	// Drift against the model's training references (nil for a model
+	// trained before they were kept).
+	Drift      *Drift   `json:"drift,omitempty"`
+	Attributes []string `json:"attributes,omitempty"`
 }
 
 // ListChanges compares the selected customers with the previous published
@@ -213,10 +215,15 @@ func Score(ctx context.Context, st *store.Store, cache *Histories, req ScoreRequ
 	}
 	progress(20, "scoring the active customers")
 	sopt := snapshots.Options{WindowDays: def.WindowDays, HorizonDays: def.HorizonDays, Dates: []civil.Date{asOf}}
+	run, err := runReport(ctx, st, sm.RunID)
+	if err != nil {
+		return nil, err
+	}
 	if slices.Contains(m.Features, snapshots.FeatureBGNBD) {
-		if sopt.BGNBD, err = runBGNBD(ctx, st, sm.RunID); err != nil {
-			return nil, err
+		if run.BGNBD == nil {
+			return nil, fmt.Errorf("training run %d: the model reads p_active_bgnbd but the run has no BG/NBD fit", sm.RunID)
 		}
+		sopt.BGNBD = &run.BGNBD.Params
 	}
 	tab, err := snapshots.Build(h, sopt)
 	if err != nil {
@@ -232,6 +239,14 @@ func Score(ctx context.Context, st *store.Store, cache *Histories, req ScoreRequ
 	probs, err := m.Predict(fr)
 	if err != nil {
 		return nil, fmt.Errorf("score list: %w", err)
+	}
+	var summary ModelReport
+	if err := json.Unmarshal(sm.Summary, &summary); err != nil {
+		return nil, fmt.Errorf("model %d: summary: %w", sm.ID, err)
+	}
+	drift, err := listDrift(summary.ScoreReference, run.FeatureReferences, probs, fr)
+	if err != nil {
+		return nil, fmt.Errorf("drift: %w", err)
 	}
 	progress(45, "reasons")
 	reasons, err := listReasons(m, fr)
@@ -291,7 +306,7 @@ func Score(ctx context.Context, st *store.Store, cache *Histories, req ScoreRequ
 	sum := &ListSummary{Dataset: d.Name, Model: sm.Name, ModelID: sm.ID, Definition: def.Seq, WindowDays: def.WindowDays, HorizonDays: def.HorizonDays,
 		Rule: req.Rule, RuleText: req.Rule.Describe(), Bands: bands, HoldoutShare: share, Period: period,
 		PeriodFrom: hold.PeriodStart(period).String(), PeriodTo: hold.PeriodEnd(period).String(),
-		Active: len(cands), NotContactable: sel.NotContactable, Eligible: sel.Eligible, Contact: len(sel.Contact), Holdout: len(sel.Holdout), HeldOver: heldOver}
+		Drift: drift, Active: len(cands), NotContactable: sel.NotContactable, Eligible: sel.Eligible, Contact: len(sel.Contact), Holdout: len(sel.Holdout), HeldOver: heldOver}
 	sum.Selected = sum.Contact + sum.Holdout
 	rows := make([]store.ListRow, len(cands))
 	for rank, i := range lists.Ranked(cands) {
@@ -365,9 +380,8 @@ func listModel(ctx context.Context, st *store.Store, d store.Dataset, def store.
 	return sm, m, nil
 }
 
-// runBGNBD returns the BG/NBD parameters a training run's p_active_bgnbd
-// feature used.
-func runBGNBD(ctx context.Context, st *store.Store, runID int64) (*bgnbd.Params, error) {
+// runReport reads a training run's report.
+func runReport(ctx context.Context, st *store.Store, runID int64) (*TrainReport, error) {
 	run, err := st.TrainingRunByID(ctx, runID)
 	if err != nil {
 		return nil, err
@@ -376,10 +390,7 @@ func runBGNBD(ctx context.Context, st *store.Store, runID int64) (*bgnbd.Params,
 	if err := json.Unmarshal(run.Report, &rep); err != nil {
 		return nil, fmt.Errorf("training run %d: %w", runID, err)
 	}
-	if rep.BGNBD == nil {
-		return nil, fmt.Errorf("training run %d: the model reads p_active_bgnbd but the run has no BG/NBD fit", runID)
-	}
-	return &rep.BGNBD.Params, nil
+	return &rep, nil
 }
 
 // listReasons gives every row up to three reasons from the model's
@@ -507,4 +518,12 @@ func ScoreJob(st *store.Store, cache *Histories, now func() time.Time) jobs.Func
 		}
 		return json.Marshal(res)
 	}
+}
+
+// SummaryOf decodes a stored list's summary; a damaged one reads as empty
+// figures.
+func SummaryOf(l store.List) ListSummary {
+	var sum ListSummary
+	json.Unmarshal(l.Summary, &sum)
+	return sum
 }

@@ -187,6 +187,11 @@ func TestScoreList(t *testing.T) {
 	if !(sum.ExpectedPrecision > 0 && sum.ExpectedPrecision < 1) || !(sum.MDE > 0 && sum.MDE < 1) {
 		t.Errorf("expected precision %v, detectable effect %v", sum.ExpectedPrecision, sum.MDE)
 	}
+	// Drift against the training references: scored a little after the
+	// latest slice, so small but measured for the score and every feature.
+	if d := sum.Drift; d == nil || !(d.ScorePSI >= 0 && d.ScorePSI < 0.25) || len(d.Features) < 13 {
+		t.Errorf("drift %+v", sum.Drift)
+	}
 	if math.Abs(sum.ExpectedNoReorders-sum.ExpectedPrecision*600) > 1e-6 {
 		t.Errorf("expected no-reorders %v, precision %v × 600", sum.ExpectedNoReorders, sum.ExpectedPrecision)
 	}

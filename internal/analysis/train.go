@@ -157,6 +157,9 @@ type ModelReport struct {
 	// ROC AUC when the feature's values are shuffled across rows
 	// (Breiman 2001, cited from memory), largest first.
 	Importance []Coefficient `json:"importance,omitempty"`
+	// ScoreReference is the refit model's calibrated scores on the latest
+	// slice, binned by their deciles: the reference for drift.
+	ScoreReference *Reference `json:"score_reference,omitempty"`
 }
 
 // curvePoints bounds the points kept of a curve.
@@ -207,6 +210,9 @@ type TrainReport struct {
 	CapCheck *CapCheck `json:"cap_check,omitempty"`
 	// MaxRows is the row cap the run used.
 	MaxRows int `json:"max_rows"`
+	// FeatureReferences are the features of the latest slice binned by
+	// their deciles: the references for feature drift.
+	FeatureReferences []FeatureReference `json:"feature_references,omitempty"`
 	// TruthROCAUC is the ROC AUC of the true probabilities on the test
 	// rows (generated data only; 0 when unknown).
 	TruthROCAUC float64 `json:"truth_roc_auc,omitempty"`
@@ -394,6 +400,8 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	refitSpec.bgnbdThrough = firstOf(dates, parts, snapshots.Test)
 	meta := model.Meta{ChurnDefinitionVersion: strconv.Itoa(def.Seq), DatasetVersion: strconv.Itoa(d.Seq), Seed: opt.Seed}
 	refits := make([][]byte, len(fits))
+	refs := make([]Reference, len(fits))
+	rep.FeatureReferences = featureReferences(sliceF)
 	var ivs []evaluate.Intervals
 	var vsBase []evaluate.Interval
 	n := len(fits)
@@ -401,7 +409,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		var err error
 		switch {
 		case i < n:
-			refits[i], err = refitModel(fits[i], refitF, sliceF, refitSpec, meta, opt)
+			refits[i], refs[i], err = refitModel(fits[i], refitF, sliceF, refitSpec, meta, opt)
 		case i == n:
 			all := make([][]float64, n)
 			for k, f := range fits {
@@ -425,6 +433,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		if vsBase != nil && mr.Name != "baseline" {
 			mr.AUCvsBaseline = &vsBase[i]
 		}
+		mr.ScoreReference = &refs[i]
 		if c := rep.CapCheck; c != nil && mr.Name == c.Model {
 			c.ROCAUC = mr.ROCAUC.Estimate
 		}
@@ -527,20 +536,26 @@ func fitAndEvaluate(name string, trainF, validF, testF *frame.Frame, labels []bo
 
 // refitModel refits an evaluated model on refitF (the trees keep the
 // number of rounds early stopping chose), recalibrates it on sliceF and
-// encodes it.
-func refitModel(f modelFit, refitF, sliceF *frame.Frame, spec fitSpec, meta model.Meta, opt TrainOptions) ([]byte, error) {
+// encodes it; it returns the calibrated scores on sliceF binned by their
+// deciles, the reference for drift.
+func refitModel(f modelFit, refitF, sliceF *frame.Frame, spec fitSpec, meta model.Meta, opt TrainOptions) ([]byte, Reference, error) {
 	if f.m.Trees != nil {
 		spec.rounds = max(len(f.m.Trees.Trees), 1)
 	}
 	m, err := trainModel(f.report.Name, refitF, nil, spec)
 	if err != nil {
-		return nil, err
+		return nil, Reference{}, err
 	}
 	if err := m.Calibrate(model.CalibrationKind(opt.Calibration), sliceF); err != nil {
-		return nil, err
+		return nil, Reference{}, err
+	}
+	scores, err := m.Predict(sliceF)
+	if err != nil {
+		return nil, Reference{}, err
 	}
 	m.Meta = meta
-	return m.Save()
+	body, err := m.Save()
+	return body, NewReference(scores), err
 }
 
 // clockOf reads the options' clock (the zero time without one).
