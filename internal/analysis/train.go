@@ -210,6 +210,10 @@ type TrainReport struct {
 	CapCheck *CapCheck `json:"cap_check,omitempty"`
 	// MaxRows is the row cap the run used.
 	MaxRows int `json:"max_rows"`
+	// ContactedRows counts snapshot rows left out because a published list
+	// contacted the customer in the H days before (their outcome was
+	// treated).
+	ContactedRows int `json:"contacted_rows,omitempty"`
 	// FeatureReferences are the features of the latest slice binned by
 	// their deciles: the references for feature drift.
 	FeatureReferences []FeatureReference `json:"feature_references,omitempty"`
@@ -282,11 +286,25 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	} else {
 		rep.Notes = append(rep.Notes, "BG/NBD could not be fitted on the orders before the first snapshot date, so p_active_bgnbd is left out.")
 	}
+	// Rows of customers contacted by a published list in (t − H, t] are left
+	// out: their outcome was treated.
+	contacts, err := st.Contacts(ctx, d.ID)
+	if err != nil {
+		return 0, nil, err
+	}
+	if len(contacts) > 0 {
+		horizon := civil.Date(def.HorizonDays)
+		sopt.Contacted = func(c int, t civil.Date) bool {
+			days := contacts[int32(c)]
+			i, _ := slices.BinarySearch(days, t-horizon+1)
+			return i < len(days) && days[i] <= t
+		}
+	}
 	tab, err := snapshots.Build(h, sopt)
 	if err != nil {
 		return 0, nil, err
 	}
-	rep.RowsBeforeCap, rep.MaxRows = tab.RowsBeforeCap, opt.MaxRows
+	rep.RowsBeforeCap, rep.MaxRows, rep.ContactedRows = tab.RowsBeforeCap, opt.MaxRows, tab.Contacted
 	rep.Features = tab.Names
 	partOf := make(map[civil.Date]snapshots.Part, len(dates))
 	for i, t := range dates {

@@ -67,6 +67,34 @@ func TestDatesAreNotWeekdayAligned(t *testing.T) {
 	}
 }
 
+// With H long against the history a 20% validation slice lies inside the
+// embargo; the slice grows until one date in twenty survives. 100 dates
+// five days apart (0…495), H = 90: test is 350…495; the 20% slice 280…345
+// is all within 90 days of 350. Grown to start at 235, it keeps 235…255
+// (5 dates, one in twenty); training 0…230 loses t ≥ 145 to its own
+// embargo and keeps 0…140 (29 dates).
+func TestSplitGrowsValidation(t *testing.T) {
+	var ds []civil.Date
+	for i := 0; i < 100; i++ {
+		ds = append(ds, base+civil.Date(5*i))
+	}
+	parts, err := Split(ds, 90, 0, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	count := map[Part]int{}
+	firstValid := -1
+	for i, p := range parts {
+		count[p]++
+		if p == Validation && firstValid < 0 {
+			firstValid = 5 * i
+		}
+	}
+	if count[Validation] != 5 || firstValid != 235 || count[Train] != 29 || count[Test] != 30 {
+		t.Errorf("parts %v, first validation day %d; want 5 validation from 235, 29 train, 30 test", count, firstValid)
+	}
+}
+
 func TestSplitWithEmbargo(t *testing.T) {
 	// 20 dates ten days apart (0, 10, …, 190), H = 15. Test: the last 30%
 	// = 6 dates (140…190). Validation: 20% of the other 14 = 3 (110, 120,

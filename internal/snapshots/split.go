@@ -23,7 +23,11 @@ func (p Part) String() string {
 // are the test period; of the earlier ones the last 20% are the validation
 // slice; a date whose label window (t, t+H] reaches the first date of the
 // next period is dropped (the embargo). testShare and validShare default to
-// 0.3 and 0.2 when zero.
+// 0.3 and 0.2 when zero. When the embargo would leave fewer than one
+// validation date in twenty, the validation slice grows into the earlier
+// dates (as far as training dates remain) until it keeps that many or as
+// many as it can: with a horizon long against the history, a 20% slice can
+// lie entirely inside the embargo.
 func Split(dates []civil.Date, horizonDays int, testShare, validShare float64) ([]Part, error) {
 	if testShare == 0 {
 		testShare = 0.3
@@ -39,7 +43,30 @@ func Split(dates []civil.Date, horizonDays int, testShare, validShare float64) (
 	if nTest < 1 || nValid < 1 || nTrain < 1 {
 		return nil, problem.New(problem.Invalid, "%d snapshot dates are too few to split into training, validation and test periods; use more snapshots or a longer history", n)
 	}
-	parts := make([]Part, n)
+	// The validation slice must keep at least minValid dates after the
+	// embargo before the test period. When the share above keeps fewer (a
+	// horizon long against the history), the slice grows into the earlier
+	// dates until it does, as long as training dates remain.
+	minValid := max(1, n/20)
+	parts, kept := assign(dates, horizonDays, nTrain, nValid)
+	for v := nValid; kept[Validation] < minValid && v < rest-1; v++ {
+		if p, k := assign(dates, horizonDays, rest-v-1, v+1); k[Train] > 0 && k[Validation] > kept[Validation] {
+			parts, kept = p, k
+		}
+	}
+	if kept[Train] == 0 || kept[Validation] == 0 {
+		return nil, problem.New(problem.Invalid,
+			"after the %d-day embargo no %s date is left: the snapshot dates span %d days, and the validation slice must be longer than the horizon with training dates before it; use a shorter horizon or a longer history",
+			horizonDays, map[bool]string{true: "training", false: "validation"}[kept[Train] == 0], int(dates[n-1]-dates[0]))
+	}
+	return parts, nil
+}
+
+// assign gives the first nTrain dates to training, the next nValid to
+// validation and the rest to the test period, then drops the dates whose
+// label window (t, t+H] reaches the next period.
+func assign(dates []civil.Date, horizonDays, nTrain, nValid int) ([]Part, [4]int) {
+	parts := make([]Part, len(dates))
 	for i := range parts {
 		switch {
 		case i >= nTrain+nValid:
@@ -52,7 +79,7 @@ func Split(dates []civil.Date, horizonDays int, testShare, validShare float64) (
 	}
 	h := civil.Date(horizonDays)
 	firstValid, firstTest := dates[nTrain], dates[nTrain+nValid]
-	kept := [4]int{}
+	var kept [4]int
 	for i, t := range dates {
 		switch parts[i] {
 		case Train:
@@ -66,14 +93,7 @@ func Split(dates []civil.Date, horizonDays int, testShare, validShare float64) (
 		}
 		kept[parts[i]]++
 	}
-	if kept[Train] == 0 || kept[Validation] == 0 {
-		// The validation slice spans a seventh of the dates' range; the
-		// embargo needs it longer than H.
-		return nil, problem.New(problem.Invalid,
-			"after the %d-day embargo no %s date is left: the snapshot dates span %d days, and the validation slice (a seventh of that) must be longer than the horizon; use a shorter horizon or a longer history",
-			horizonDays, map[bool]string{true: "training", false: "validation"}[kept[Train] == 0], int(dates[n-1]-dates[0]))
-	}
-	return parts, nil
+	return parts, kept
 }
 
 // Folds returns k rolling-origin splits: fold k−1 is Split itself (the

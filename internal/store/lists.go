@@ -396,3 +396,28 @@ func (s *Store) TrainingRunByID(ctx context.Context, id int64) (TrainingRun, err
 	r.Options, r.Report, r.CreatedAt = []byte(opts), []byte(report), parseTime(created)
 	return r, nil
 }
+
+// Contacts returns, for every customer contacted by a published list of the
+// dataset, the dates of those lists (ascending).
+func (s *Store) Contacts(ctx context.Context, datasetID int64) (map[int32][]civil.Date, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT r.customer_id, l.as_of FROM lists l JOIN list_rows r ON r.list_id = l.id
+		WHERE l.dataset_id = ? AND l.state = 'published' AND r.status = ? ORDER BY l.as_of`, datasetID, RowContact)
+	if err != nil {
+		return nil, fmt.Errorf("contacts of dataset %d: %w", datasetID, err)
+	}
+	defer rows.Close()
+	out := map[int32][]civil.Date{}
+	for rows.Next() {
+		var c int32
+		var day string
+		if err := rows.Scan(&c, &day); err != nil {
+			return nil, err
+		}
+		d, err := civil.Parse(day)
+		if err != nil {
+			return nil, err
+		}
+		out[c] = append(out[c], d)
+	}
+	return out, rows.Err()
+}
