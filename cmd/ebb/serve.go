@@ -3,7 +3,6 @@ package main
 import (
 	"sync"
 
-	"bytes"
 	"context"
 	"encoding/hex"
 	"errors"
@@ -319,24 +318,15 @@ func loadDemo(ctx context.Context, e env, st *store.Store) error {
 	} else if !problem.Is(err, problem.NotFound) {
 		return err
 	}
-	b := demo.Generate(demo.Options{})
-	var orders, customers bytes.Buffer
-	if err := b.WriteOrders(&orders); err != nil {
-		return fmt.Errorf("demo: %w", err)
-	}
-	if err := b.WriteCustomers(&customers); err != nil {
-		return fmt.Errorf("demo: %w", err)
-	}
-	res, err := analysis.Import(ctx, st, analysis.ImportRequest{
-		Dataset:   demoDataset,
-		Orders:    analysis.Source{Name: demo.OrdersFile, R: &orders},
-		Customers: &analysis.Source{Name: demo.CustomersFile, R: &customers},
-		Now:       e.now(),
-	})
+	h, err := loadDemoHistory(ctx, st, demo.Generate(demo.Options{}), e.now())
 	if err != nil {
 		return fmt.Errorf("load the demo dataset: %w", err)
 	}
-	fmt.Fprintf(e.stdout, "loaded the demo dataset (the invented shop Larkspur Refills): %d orders, %d customers\n",
-		res.Orders.Accepted, res.Customers.Accepted)
+	d, err := st.DatasetByID(ctx, h.DatasetID)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(e.stdout, "loaded the demo dataset (the invented shop Larkspur Refills): %d orders, %d customers, %d weekly lists already published\n",
+		d.Orders, d.Customers, len(h.Lists))
 	return nil
 }
