@@ -1,12 +1,14 @@
 package web
 
 import (
+	"fmt"
 	"net"
 	"net/http"
 	"strings"
 
 	"github.com/go-chi/chi/v5"
 
+	"ebb/internal/analysis"
 	"ebb/internal/auth"
 	"ebb/internal/problem"
 	"ebb/web/views"
@@ -253,6 +255,22 @@ func (s *Server) handleUserReset(w http.ResponseWriter, r *http.Request) {
 func (s *Server) handleStart(w http.ResponseWriter, r *http.Request) {
 	u, _ := currentUser(r)
 	v := views.StartView{Chrome: s.chrome(w, r, "Start", "start"), IsAnalyst: u.Role.Allows(auth.Analyst)}
+	all, err := s.store.Datasets(r.Context())
+	if err != nil {
+		s.fail(w, r, err)
+		return
+	}
+	for _, d := range all {
+		sd := views.StartDataset{ID: d.ID, Name: d.Name, Line: "No list published yet."}
+		if l, err := s.store.LatestPublishedList(r.Context(), d.ID); err == nil {
+			sum := analysis.SummaryOf(l)
+			sd.Line = fmt.Sprintf("Latest list %s: %s customers to contact.", l.AsOf, views.Count(sum.Contact))
+		} else if !problem.Is(err, problem.NotFound) {
+			s.fail(w, r, err)
+			return
+		}
+		v.Overviews = append(v.Overviews, sd)
+	}
 	if v.IsAnalyst {
 		ds, err := s.store.Datasets(r.Context())
 		if err != nil {

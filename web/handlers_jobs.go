@@ -89,6 +89,13 @@ func (s *Server) handleJobShow(w http.ResponseWriter, r *http.Request) {
 			}
 		}
 	}
+	if j.Kind == analysis.KindMeasure && j.Status == jobs.Done {
+		var res analysis.MeasureParams
+		if json.Unmarshal(j.Result, &res) == nil {
+			v.Summary = []string{"The outcomes were measured: realized accuracy of the matured lists, the campaign effect, drift and cohort retention."}
+			v.ResultURL, v.ResultLabel = datasetPath(res.DatasetID)+"/outcomes", "Open the outcomes"
+		}
+	}
 	if j.Kind == analysis.KindWindow && j.Status == jobs.Done {
 		var res analysis.WindowJobResult
 		if json.Unmarshal(j.Result, &res) == nil {

@@ -69,7 +69,6 @@ func listState(l store.List) string {
 	return "draft"
 }
 
-
 // listFormDefaults are the draft form's starting values.
 var listFormDefaults = views.ListFormView{Mode: "size", Size: "500", Threshold: "0.5", Cost: "2", Value: "40", Save: "0.2",
 	Holdout: "0.1", High: "0.7", Medium: "0.4"}
@@ -110,7 +109,7 @@ func parseListForm(r *http.Request) (analysis.ScoreRequest, error) {
 	var req analysis.ScoreRequest
 	num := func(name, what string, lo, hi float64) (float64, error) {
 		x, err := strconv.ParseFloat(strings.TrimSpace(r.PostFormValue(name)), 64)
-		if err != nil || x < lo || x > hi {
+		if err != nil || !(x >= lo && x <= hi) { // NaN fails too
 			return 0, problem.New(problem.Invalid, "%s must be a number from %g to %g", what, lo, hi)
 		}
 		return x, nil
@@ -358,6 +357,13 @@ func (s *Server) handleListPublish(w http.ResponseWriter, r *http.Request) {
 	if err != nil {
 		s.fail(w, r, err)
 		return
+	}
+	// The outcomes now include this list (and any that matured since).
+	if l, err := s.store.ListByID(r.Context(), id); err == nil {
+		body, _ := json.Marshal(analysis.MeasureParams{DatasetID: l.DatasetID})
+		if _, err := s.jobs.Submit(r.Context(), analysis.KindMeasure, l.DatasetID, body, u.Name); err != nil {
+			s.log.Warn("queue measure after publishing", "list", id, "err", err)
+		}
 	}
 	s.flash(w, r, "The list is published: marketing can see it and campaign tools can fetch it.")
 	seeOther(w, r, listPath(id))

@@ -332,7 +332,7 @@ func parseTry(r *http.Request, defaultModel string) (tryForm, error) {
 	}
 	if f.tText != "" {
 		t, err := strconv.ParseFloat(strings.TrimSpace(f.tText), 64)
-		if err != nil || t < 0 || t > 1 {
+		if err != nil || !(t >= 0 && t <= 1) { // NaN fails too
 			return f, problem.New(problem.Invalid, "the probability threshold must be between 0 and 1")
 		}
 		f.threshold, f.hasThreshold = t, true

@@ -201,7 +201,7 @@ func (s *Server) handleWindowDerive(w http.ResponseWriter, r *http.Request) {
 	opt := gaps.Options{Percentile: q, LookbackDays: l}
 	msg := ""
 	switch {
-	case qerr != nil || q <= 0 || q > 100:
+	case qerr != nil || !(q > 0 && q <= 100):
 		msg = "The percentile must be a number above 0 and at most 100."
 	case lerr != nil || l < 1 || l > 3650:
 		msg = "The look-back must be a whole number of days from 1 to 3650."

@@ -76,6 +76,7 @@ func newEnv(t *testing.T, withDemo bool) *testEnv {
 	e.runner.Register(analysis.KindTrain, analysis.TrainJob(st, hc, c.now, nil))
 	e.runner.Register(analysis.KindScore, analysis.ScoreJob(st, hc, c.now))
 	e.runner.Register(analysis.KindScheduledList, analysis.ScheduledListJob(st, hc, c.now))
+	e.runner.Register(analysis.KindMeasure, analysis.MeasureJob(st, hc, c.now))
 	if _, err := e.runner.Start(ctx); err != nil {
 		t.Fatal(err)
 	}

@@ -24,13 +24,16 @@ var access = map[string]auth.Role{
 	// Guarded by a bearer token instead of a session (see tokens_test.go).
 	"GET /api/v1/datasets/{name}/lists/latest.csv": 0,
 
-	"GET /":                  auth.Viewer,
-	"POST /signout":          auth.Viewer,
-	"GET /account":           auth.Viewer,
-	"POST /account/password": auth.Viewer,
-	"GET /lists":             auth.Viewer,
-	"GET /lists/{id}":        auth.Viewer,
-	"GET /lists/{id}/{file}": auth.Viewer,
+	"GET /":                               auth.Viewer,
+	"POST /signout":                       auth.Viewer,
+	"GET /account":                        auth.Viewer,
+	"POST /account/password":              auth.Viewer,
+	"GET /lists":                          auth.Viewer,
+	"GET /lists/{id}":                     auth.Viewer,
+	"GET /lists/{id}/{file}":              auth.Viewer,
+	"GET /datasets/{id}/overview":         auth.Viewer,
+	"GET /datasets/{id}/outcomes":         auth.Viewer,
+	"GET /datasets/{id}/outcomes/{chart}": auth.Viewer,
 
 	"GET /datasets":                           auth.Analyst,
 	"GET /datasets/{id}":                      auth.Analyst,
@@ -62,6 +65,7 @@ var access = map[string]auth.Role{
 	"POST /lists/{id}/discard":                auth.Analyst,
 	"GET /datasets/{id}/schedule":             auth.Analyst,
 	"POST /datasets/{id}/schedule":            auth.Analyst,
+	"POST /datasets/{id}/measure":             auth.Analyst,
 
 	"GET /admin/users":               auth.Admin,
 	"POST /admin/users":              auth.Admin,

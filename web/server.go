@@ -54,6 +54,8 @@ type Store interface {
 	DeleteDraftList(ctx context.Context, id int64) error
 	ScheduleOf(ctx context.Context, datasetID int64) (store.Schedule, error)
 	SaveSchedule(ctx context.Context, sc store.Schedule) error
+	CurrentDefinition(ctx context.Context, datasetID int64) (store.Definition, error)
+	LatestOutcomes(ctx context.Context, datasetID int64) (store.Outcomes, error)
 }
 
 // Jobs is what the handlers need from the job runner.
@@ -132,6 +134,9 @@ func (s *Server) routes() chi.Router {
 		r.Get("/lists", s.handleLists)
 		r.Get("/lists/{id}", s.handleListShow)
 		r.Get("/lists/{id}/{file}", s.handleListExport)
+		r.Get("/datasets/{id}/overview", s.handleOverview)
+		r.Get("/datasets/{id}/outcomes", s.handleOutcomes)
+		r.Get("/datasets/{id}/outcomes/{chart}", s.handleOutcomesChart)
 	})
 
 	r.Group(func(r chi.Router) {
@@ -155,6 +160,7 @@ func (s *Server) routes() chi.Router {
 		r.Post("/lists/{id}/discard", s.handleListDiscard)
 		r.Get("/datasets/{id}/schedule", s.handleScheduleShow)
 		r.Post("/datasets/{id}/schedule", s.handleScheduleSave)
+		r.Post("/datasets/{id}/measure", s.handleMeasure)
 		r.Get("/datasets/{id}/window/{chart}", s.handleWindowChart)
 		r.Get("/uploads/new", s.handleUploadForm)
 		r.Post("/uploads", s.handleUpload)

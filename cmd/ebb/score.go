@@ -54,7 +54,7 @@ judgements about people; honour consent and unsubscribe rules.`,
 				req := analysis.ScoreRequest{Rule: analysis.ListRule{Size: size}, Publish: publish, By: "ebb score", Now: e.now()}
 				if threshold != "" {
 					p, err := strconv.ParseFloat(threshold, 64)
-					if err != nil || p < 0 || p > 1 {
+					if err != nil || !(p >= 0 && p <= 1) {
 						return fmt.Errorf("score: --threshold %q is not a probability between 0 and 1", threshold)
 					}
 					req.Rule.Threshold, req.Rule.UseThreshold = p, true

@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"ebb/demo"
+	"ebb/demo/replay"
 	"ebb/internal/analysis"
 	"ebb/internal/auth"
 	"ebb/internal/civil"
@@ -151,6 +152,7 @@ func serve(ctx context.Context, e env, o serveOptions) error {
 	}))
 	runner.Register(analysis.KindScore, analysis.ScoreJob(st, histories, now))
 	runner.Register(analysis.KindScheduledList, analysis.ScheduledListJob(st, histories, now))
+	runner.Register(analysis.KindMeasure, analysis.MeasureJob(st, histories, now))
 	if n, err := runner.Start(ctx); err != nil {
 		return err
 	} else if n > 0 {
@@ -318,7 +320,7 @@ func loadDemo(ctx context.Context, e env, st *store.Store) error {
 	} else if !problem.Is(err, problem.NotFound) {
 		return err
 	}
-	h, err := loadDemoHistory(ctx, st, demo.Generate(demo.Options{}), e.now())
+	h, err := replay.Load(ctx, st, demo.Generate(demo.Options{}), e.now())
 	if err != nil {
 		return fmt.Errorf("load the demo dataset: %w", err)
 	}

@@ -103,7 +103,7 @@ type Value struct {
 
 // Check validates the assumptions.
 func (v Value) Check() error {
-	if v.CostPerContact < 0 || v.KeptValue < 0 || v.SaveRate < 0 || v.SaveRate > 1 || math.IsNaN(v.CostPerContact+v.KeptValue+v.SaveRate) {
+	if !(v.CostPerContact >= 0 && v.KeptValue >= 0 && v.SaveRate >= 0 && v.SaveRate <= 1) || math.IsInf(v.CostPerContact+v.KeptValue, 0) {
 		return problem.New(problem.Invalid, "cost and value must be zero or more, and the save rate between 0 and 1")
 	}
 	return nil

@@ -709,3 +709,33 @@ func (s *Store) Counts(ctx context.Context) (datasets, versions, customers, orde
 		(SELECT count(*) FROM customers), (SELECT count(*) FROM orders)`).Scan(&datasets, &versions, &customers, &orders)
 	return
 }
+
+// SetSalt replaces a dataset's salt, the key of its holdout and tie-break
+// hashes. Only a dataset without lists may change it: a new salt draws a
+// new holdout. The demo uses it so every demo draws the same holdout.
+func (s *Store) SetSalt(ctx context.Context, datasetID int64, salt []byte) error {
+	if len(salt) < 16 {
+		return problem.New(problem.Invalid, "a salt needs at least 16 bytes")
+	}
+	err := s.inTx(ctx, func(tx *sql.Tx) error {
+		var n int
+		if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM lists WHERE dataset_id = ?`, datasetID).Scan(&n); err != nil {
+			return err
+		}
+		if n > 0 {
+			return problem.New(problem.Conflict, "dataset %d has lists; changing its salt would change their holdout", datasetID)
+		}
+		res, err := tx.ExecContext(ctx, `UPDATE datasets SET salt = ? WHERE id = ?`, salt, datasetID)
+		if err != nil {
+			return err
+		}
+		if n, _ := res.RowsAffected(); n == 0 {
+			return problem.New(problem.NotFound, "there is no dataset %d", datasetID)
+		}
+		return nil
+	})
+	if err != nil && problem.As(err) == nil {
+		return fmt.Errorf("set salt of dataset %d: %w", datasetID, err)
+	}
+	return err
+}

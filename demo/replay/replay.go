@@ -1,4 +1,10 @@
-package main
+// Package replay gives the demo business a past: it imports the invented
+// shop's orders in weekly rounds, drafting and publishing an at-risk list
+// each week and applying the generator's simulated campaign effect to the
+// contacted customers before the data moves on, then measures the
+// outcomes. So `ebb serve --demo` shows realized accuracy and a measured
+// effect on first start. The effect is simulated, and pages say so.
+package replay
 
 import (
 	"bytes"
@@ -14,41 +20,49 @@ import (
 	"ebb/internal/store"
 )
 
+// Dataset is the name the demo is imported under.
+const Dataset = "demo"
+
 // The demo's past: a churn definition, models trained on the data up to
 // the first list, then weekly lists published as the weeks went by, with
 // the simulated campaign effect applied to the contacted customers of each
 // before the data moves on. The last list is recent, so its results are
 // not in yet.
 var (
-	demoListDates = []time.Time{
+	// ListDates are the Mondays the demo's lists were drawn on.
+	ListDates = []time.Time{
 		date(2026, 6, 1), date(2026, 6, 8), date(2026, 6, 15), date(2026, 6, 22),
 		date(2026, 6, 29), date(2026, 7, 6), date(2026, 7, 13), date(2026, 7, 20),
 		date(2026, 10, 26),
 	}
-	demoWindowDays           = 90
-	demoListSize             = 400
-	demoHoldout              = 0.15
-	demoRationale            = "A quarter, the marketing team's planning cycle. It is shorter than the mean-gap (120 days) and censoring-aware (145 days) estimates, so customers are flagged sooner; the sensitivity table shows how many of them come back on their own."
-	demoEffectNote           = fmt.Sprintf("Demo data: the campaign effect here is simulated. Each time a customer was contacted they placed one extra order within the horizon with probability %.0f%%; customers on several weekly lists were contacted several times.", 100*demo.WinBackRate)
-	demoTreatmentSeed uint64 = 7
+	effectNote = fmt.Sprintf("Demo data: the campaign effect here is simulated. Each time a customer was contacted they placed one extra order within the horizon with probability %.0f%%; customers on several weekly lists were contacted several times.", 100*demo.WinBackRate)
+)
+
+const (
+	// WindowDays is the demo's churn window X (and horizon H).
+	WindowDays    = 90
+	listSize      = 400
+	holdoutShare  = 0.15
+	treatmentSeed = 7
+	rationale     = "A quarter, the marketing team's planning cycle. It is shorter than the mean-gap (120 days) and censoring-aware (145 days) estimates, so customers are flagged sooner; the sensitivity table shows how many of them come back on their own."
 )
 
 func date(y int, m time.Month, d int) time.Time { return time.Date(y, m, d, 0, 0, 0, 0, time.UTC) }
 
-// demoHistory is what loading the demo's past did, for tests.
-type demoHistory struct {
+// Result is what loading the demo's past did.
+type Result struct {
 	DatasetID int64
 	Business  demo.Business // without the simulated extra orders
 	Extra     []demo.Order  // the simulated extra orders
 	Lists     []int64       // published lists, oldest first
 }
 
-// loadDemoHistory imports the demo business in rounds: the orders up to
+// Load imports the demo business as the dataset "demo" in rounds: the orders up to
 // each list date, a list drafted and published on it, the campaign effect
 // simulated for its contacted customers, then on to the next date; finally
 // the rest of the orders, and the outcomes measured.
-func loadDemoHistory(ctx context.Context, st *store.Store, b demo.Business, now time.Time) (*demoHistory, error) {
-	out := &demoHistory{Business: b}
+func Load(ctx context.Context, st *store.Store, b demo.Business, now time.Time) (*Result, error) {
+	out := &Result{Business: b}
 	pending := slices.Clone(b.Orders)
 	cache := history.NewCache(1)
 	var customers bytes.Buffer
@@ -67,7 +81,7 @@ func loadDemoHistory(ctx context.Context, st *store.Store, b demo.Business, now 
 			return err
 		}
 		pending = pending[n:]
-		req := analysis.ImportRequest{Dataset: demoDataset, Append: out.DatasetID != 0, Orders: analysis.Source{Name: demo.OrdersFile, R: &orders}, Now: now}
+		req := analysis.ImportRequest{Dataset: Dataset, Append: out.DatasetID != 0, Orders: analysis.Source{Name: demo.OrdersFile, R: &orders}, Now: now}
 		if out.DatasetID == 0 {
 			req.Customers = &analysis.Source{Name: demo.CustomersFile, R: bytes.NewReader(customers.Bytes())}
 		}
@@ -84,10 +98,15 @@ func loadDemoHistory(ctx context.Context, st *store.Store, b demo.Business, now 
 		return st.SetDataThrough(ctx, out.DatasetID, through)
 	}
 
-	if err := importThrough(demoListDates[0]); err != nil {
+	if err := importThrough(ListDates[0]); err != nil {
 		return nil, fmt.Errorf("demo: first import: %w", err)
 	}
-	if _, err := analysis.SaveDefinition(ctx, st, out.DatasetID, analysis.DefinitionInput{WindowDays: demoWindowDays, Method: "mean-gap", Rationale: demoRationale}, "demo", now); err != nil {
+	// A fixed salt, so every demo holds out the same customers and shows the
+	// same figures (a real dataset keeps its random one).
+	if err := st.SetSalt(ctx, out.DatasetID, []byte("Larkspur Refills demo holdout salt")); err != nil {
+		return nil, err
+	}
+	if _, err := analysis.SaveDefinition(ctx, st, out.DatasetID, analysis.DefinitionInput{WindowDays: WindowDays, Method: "mean-gap", Rationale: rationale}, "demo", now); err != nil {
 		return nil, fmt.Errorf("demo: definition: %w", err)
 	}
 	truth := b.Truth() // no list has treated anyone before the first list date
@@ -95,14 +114,14 @@ func loadDemoHistory(ctx context.Context, st *store.Store, b demo.Business, now 
 	if _, _, err := analysis.Train(ctx, st, cache, out.DatasetID, topt, "demo", now, nil); err != nil {
 		return nil, fmt.Errorf("demo: train: %w", err)
 	}
-	share := demoHoldout
-	for i, day := range demoListDates {
+	share := holdoutShare
+	for i, day := range ListDates {
 		if i > 0 {
 			if err := importThrough(day); err != nil {
 				return nil, fmt.Errorf("demo: import through %s: %w", day.Format(time.DateOnly), err)
 			}
 		}
-		res, err := analysis.Score(ctx, st, cache, analysis.ScoreRequest{DatasetID: out.DatasetID, Rule: analysis.ListRule{Size: demoListSize},
+		res, err := analysis.Score(ctx, st, cache, analysis.ScoreRequest{DatasetID: out.DatasetID, Rule: analysis.ListRule{Size: listSize},
 			Holdout: &share, Publish: true, By: "demo", Now: now}, nil)
 		if err != nil {
 			return nil, fmt.Errorf("demo: list of %s: %w", day.Format(time.DateOnly), err)
@@ -115,7 +134,7 @@ func loadDemoHistory(ctx context.Context, st *store.Store, b demo.Business, now 
 		}); err != nil {
 			return nil, err
 		}
-		extra := b.Treat(contacted, day, demoWindowDays, demoTreatmentSeed)
+		extra := b.Treat(contacted, day, WindowDays, treatmentSeed)
 		out.Extra = append(out.Extra, extra...)
 		pending = append(pending, extra...)
 		slices.SortStableFunc(pending, func(a, c demo.Order) int { return a.Date.Compare(c.Date) })
@@ -123,7 +142,7 @@ func loadDemoHistory(ctx context.Context, st *store.Store, b demo.Business, now 
 	if err := importThrough(time.Time{}); err != nil {
 		return nil, fmt.Errorf("demo: last import: %w", err)
 	}
-	if err := analysis.MarkDemo(ctx, st, out.DatasetID, demoEffectNote); err != nil {
+	if err := analysis.MarkDemo(ctx, st, out.DatasetID, effectNote); err != nil {
 		return nil, err
 	}
 	if _, err := analysis.Measure(ctx, st, cache, out.DatasetID, now, nil); err != nil {

@@ -1,4 +1,4 @@
-package main
+package replay
 
 import (
 	"context"
@@ -26,11 +26,11 @@ func TestDemoHistory(t *testing.T) {
 	}
 	defer st.Close()
 	b := demo.Generate(demo.Options{})
-	h, err := loadDemoHistory(ctx, st, b, now)
+	h, err := Load(ctx, st, b, now)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(h.Lists) != len(demoListDates) || len(h.Extra) == 0 {
+	if len(h.Lists) != len(ListDates) || len(h.Extra) == 0 {
 		t.Fatalf("%d lists, %d extra orders", len(h.Lists), len(h.Extra))
 	}
 	o, err := st.LatestOutcomes(ctx, h.DatasetID)
@@ -55,7 +55,7 @@ func TestDemoHistory(t *testing.T) {
 			t.Errorf("list of %s is not matured", lo.AsOf)
 		}
 	}
-	if matured != len(demoListDates)-1 || rep.Effect.Lists != matured {
+	if matured != len(ListDates)-1 || rep.Effect.Lists != matured {
 		t.Errorf("%d matured lists, effect over %d", matured, rep.Effect.Lists)
 	}
 
@@ -79,7 +79,7 @@ func TestDemoHistory(t *testing.T) {
 		}
 		return false
 	}
-	hold := lists.Holdout{PeriodDays: lists.PeriodDays(demoWindowDays)}
+	hold := lists.Holdout{PeriodDays: lists.PeriodDays(WindowDays)}
 	seen := map[[2]int]bool{}
 	contacted, flipped := 0, 0
 	for _, id := range h.Lists {
@@ -87,7 +87,7 @@ func TestDemoHistory(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		end := l.AsOf + civil.Date(demoWindowDays)
+		end := l.AsOf + civil.Date(WindowDays)
 		if end > civil.Of(b.End) {
 			continue
 		}
