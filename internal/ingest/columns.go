@@ -88,7 +88,7 @@ func resolve(header []string, want Columns) (columnIndex, string) {
 			if k, err := strconv.Atoi(explicit); err == nil && k >= 1 && k <= len(header) {
 				return k - 1, ""
 			}
-			return -1, fmt.Sprintf("the %s column %q is not in the header (found %s)", field, explicit, strings.Join(header, ", "))
+			return -1, fmt.Sprintf("the %s column %q is not in the header (found %s)", field, explicit, headerList(header))
 		}
 		for _, name := range usualNames[field] {
 			for i, h := range norm {
@@ -98,7 +98,7 @@ func resolve(header []string, want Columns) (columnIndex, string) {
 			}
 		}
 		if required {
-			return -1, fmt.Sprintf("no %s column found in the header (found %s); name it in the column mapping, e.g. %s=COLUMN", field, strings.Join(header, ", "), field)
+			return -1, fmt.Sprintf("no %s column found in the header (found %s); name it in the column mapping, e.g. %s=COLUMN", field, headerList(header), field)
 		}
 		return -1, ""
 	}
@@ -176,4 +176,23 @@ func DelimiterName(d byte) string {
 		return "tab"
 	}
 	return fmt.Sprintf("%q", d)
+}
+
+// headerList names the header's columns for a message, shortened so that a
+// huge header (a whole file read as one line) cannot make a huge message:
+// at most 12 names of at most 40 characters each.
+func headerList(header []string) string {
+	const maxNames, maxLen = 12, 40
+	var names []string
+	for i, h := range header {
+		if i == maxNames {
+			names = append(names, fmt.Sprintf("and %d more", len(header)-maxNames))
+			break
+		}
+		if r := []rune(h); len(r) > maxLen {
+			h = string(r[:maxLen]) + "…"
+		}
+		names = append(names, h)
+	}
+	return strings.Join(names, ", ")
 }
