@@ -33,7 +33,7 @@ type command struct {
 }
 
 func commands() []command {
-	return []command{serveCommand(), importCommand(), windowCommand(), trainCommand(), modelCommand(), scoreCommand(), demoCommand(), healthCommand()}
+	return []command{serveCommand(), importCommand(), windowCommand(), trainCommand(), modelCommand(), scoreCommand(), demoCommand(), healthCommand(), backupCommand()}
 }
 
 // errShown marks an error whose details were already printed.
