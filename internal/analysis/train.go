@@ -473,19 +473,15 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 		return 0, nil, err
 	}
 	useFirst := len(order) > 0 && rep.Models[order[0]].Name != "baseline"
+	// The run, its models, rankings and test rows in one transaction: a run
+	// is all there or not at all.
 	runID, ids, err := st.InsertTrainingRun(ctx, store.TrainingRun{DatasetID: d.ID, VersionID: d.Version, DefinitionID: def.ID,
-		Options: optJSON, Report: repJSON, CreatedBy: by, CreatedAt: now}, stored, useFirst)
+		Options: optJSON, Report: repJSON, CreatedBy: by, CreatedAt: now, Ranked: ranked, TestRows: testRowsCSV.Bytes()}, stored, useFirst)
 	if err != nil {
 		return 0, nil, err
 	}
 	for k, i := range order {
 		rep.Models[i].ID = ids[k]
-	}
-	if err := st.InsertRankedLists(ctx, runID, ranked); err != nil {
-		return 0, nil, err
-	}
-	if err := st.SaveTestRows(ctx, runID, testRowsCSV.Bytes()); err != nil {
-		return 0, nil, err
 	}
 	progress(100, "done")
 	return runID, rep, nil

@@ -17,6 +17,10 @@ type TrainingRun struct {
 	Options, Report                        []byte
 	CreatedBy                              string
 	CreatedAt                              time.Time
+	// Ranked and TestRows, when given, are stored with the run in the same
+	// transaction (InsertTrainingRun), so a run is never half there.
+	Ranked   []RankedList
+	TestRows []byte
 }
 
 // StoredModel is a model offered for lists.
@@ -54,6 +58,14 @@ func (s *Store) InsertTrainingRun(ctx context.Context, r TrainingRun, models []S
 			}
 			id, _ := res.LastInsertId()
 			ids = append(ids, id)
+		}
+		if err := insertRanked(ctx, tx, runID, r.Ranked); err != nil {
+			return err
+		}
+		if r.TestRows != nil {
+			if _, err := tx.ExecContext(ctx, `INSERT INTO run_test_rows (run_id, csv) VALUES (?, ?)`, runID, r.TestRows); err != nil {
+				return err
+			}
 		}
 		return nil
 	})
@@ -151,23 +163,19 @@ type RankedList struct {
 	Data      []byte
 }
 
-// InsertRankedLists stores a run's rankings in one transaction.
-func (s *Store) InsertRankedLists(ctx context.Context, runID int64, lists []RankedList) error {
-	err := s.inTx(ctx, func(tx *sql.Tx) error {
-		ins, err := tx.PrepareContext(ctx, `INSERT INTO ranked_lists (run_id, model, day, customers, positives, data) VALUES (?, ?, ?, ?, ?, ?)`)
-		if err != nil {
+func insertRanked(ctx context.Context, tx *sql.Tx, runID int64, lists []RankedList) error {
+	if len(lists) == 0 {
+		return nil
+	}
+	ins, err := tx.PrepareContext(ctx, `INSERT INTO ranked_lists (run_id, model, day, customers, positives, data) VALUES (?, ?, ?, ?, ?, ?)`)
+	if err != nil {
+		return err
+	}
+	defer ins.Close()
+	for _, l := range lists {
+		if _, err := ins.ExecContext(ctx, runID, l.Model, l.Day, l.Customers, l.Positives, l.Data); err != nil {
 			return err
 		}
-		defer ins.Close()
-		for _, l := range lists {
-			if _, err := ins.ExecContext(ctx, runID, l.Model, l.Day, l.Customers, l.Positives, l.Data); err != nil {
-				return err
-			}
-		}
-		return nil
-	})
-	if err != nil {
-		return fmt.Errorf("store ranked lists of run %d: %w", runID, err)
 	}
 	return nil
 }
@@ -188,14 +196,6 @@ func (s *Store) RankedLists(ctx context.Context, runID int64, model string) ([]R
 		out = append(out, l)
 	}
 	return out, rows.Err()
-}
-
-// SaveTestRows stores a run's evaluated test rows as CSV.
-func (s *Store) SaveTestRows(ctx context.Context, runID int64, csv []byte) error {
-	if _, err := s.w.ExecContext(ctx, `INSERT OR REPLACE INTO run_test_rows (run_id, csv) VALUES (?, ?)`, runID, csv); err != nil {
-		return fmt.Errorf("store test rows of run %d: %w", runID, err)
-	}
-	return nil
 }
 
 // TestRows returns a run's evaluated test rows as CSV.
