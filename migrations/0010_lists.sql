@@ -6,7 +6,7 @@
 -- JSON document with the rule, bands, holdout, counts and the figures shown
 -- before publishing.
 CREATE TABLE lists (
-    id            INTEGER PRIMARY KEY,
+    id            INTEGER PRIMARY KEY AUTOINCREMENT, -- never reused: pages keep what a list id showed
     dataset_id    INTEGER NOT NULL REFERENCES datasets(id) ON DELETE CASCADE,
     version_id    INTEGER NOT NULL REFERENCES versions(id) ON DELETE CASCADE,
     model_id      INTEGER NOT NULL REFERENCES models(id) ON DELETE CASCADE,
@@ -36,7 +36,6 @@ CREATE TABLE list_rows (
     reasons      TEXT NOT NULL,
     PRIMARY KEY (list_id, rank)
 ) WITHOUT ROWID;
-CREATE INDEX list_rows_by_customer ON list_rows (list_id, customer_id);
 
 -- A dataset's weekly list run: weekday (0 Sunday … 6 Saturday) and time
 -- of day (HH:MM, server time zone UTC), the list's rule as JSON, and

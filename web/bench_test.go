@@ -27,6 +27,7 @@ func BenchmarkPages(b *testing.B) {
 		name, path, role string
 		bearer           bool
 	}{
+		{"overview", "/datasets/" + itoa(r.dataset.ID) + "/overview", "viewer", false},
 		{"models", "/datasets/" + itoa(r.dataset.ID) + "/models", "analyst", false},
 		{"list", "/lists/" + itoa(r.listID), "viewer", false},
 		{"lists", "/lists", "analyst", false},

@@ -8,7 +8,6 @@ import (
 
 	"github.com/go-chi/chi/v5"
 
-	"ebb/internal/analysis"
 	"ebb/internal/auth"
 	"ebb/internal/problem"
 	"ebb/web/views"
@@ -263,7 +262,7 @@ func (s *Server) handleStart(w http.ResponseWriter, r *http.Request) {
 	for _, d := range all {
 		sd := views.StartDataset{ID: d.ID, Name: d.Name, Line: "No list published yet."}
 		if l, err := s.store.LatestPublishedList(r.Context(), d.ID); err == nil {
-			sum := analysis.SummaryOf(l)
+			sum := s.summary(l)
 			sd.Line = fmt.Sprintf("Latest list %s: %s customers to contact.", l.AsOf, views.Count(sum.Contact))
 		} else if !problem.Is(err, problem.NotFound) {
 			s.fail(w, r, err)

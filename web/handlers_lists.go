@@ -1,9 +1,11 @@
 package web
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"fmt"
+	"io"
 	"mime"
 	"net/http"
 	"net/url"
@@ -49,7 +51,7 @@ func (s *Server) handleLists(w http.ResponseWriter, r *http.Request) {
 			}
 		}
 		for _, l := range ls[:min(len(ls), 20)] {
-			sum := analysis.SummaryOf(l)
+			sum := s.summary(l)
 			line := views.ListLine{ID: l.ID, AsOf: l.AsOf.String(), State: listState(l), Model: fmt.Sprintf("%s (%d)", sum.Model, sum.ModelID),
 				Rule: sum.RuleText, Selected: views.Count(sum.Selected), Contact: views.Count(sum.Contact), Holdout: views.Count(sum.Holdout)}
 			if l.Published {
@@ -60,6 +62,16 @@ func (s *Server) handleLists(w http.ResponseWriter, r *http.Request) {
 		v.Datasets = append(v.Datasets, ld)
 	}
 	s.render(w, r, http.StatusOK, views.ListsPage(v))
+}
+
+// summary returns a list's decoded summary (kept: it never changes).
+func (s *Server) summary(l store.List) analysis.ListSummary {
+	if sum, ok := s.summaries.get(l.ID); ok {
+		return sum
+	}
+	sum := analysis.SummaryOf(l)
+	s.summaries.put(l.ID, sum)
+	return sum
 }
 
 func listState(l store.List) string {
@@ -243,7 +255,7 @@ func (s *Server) handleListShow(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	u, _ := currentUser(r)
-	sum := analysis.SummaryOf(l)
+	sum := s.summary(l)
 	v := views.ListView{Chrome: s.chrome(w, r, "List of "+l.AsOf.String()+" · "+d.Name, "lists"), ID: l.ID, DatasetID: d.ID, Dataset: d.Name,
 		AsOf: l.AsOf.String(), Draft: !l.Published, CanPublish: !l.Published && u.Role.Allows(auth.Analyst),
 		AttrNames: sum.Attributes, ExportBase: listPath(l.ID)}
@@ -278,10 +290,24 @@ func (s *Server) handleListShow(w http.ResponseWriter, r *http.Request) {
 	}
 	from, _ := strconv.Atoi(q.Get("from"))
 	f.Offset, f.Limit = max(from, 0), pageRows
-	rows, total, err := s.store.ListRows(r.Context(), f)
-	if err != nil {
-		s.fail(w, r, err)
-		return
+	// A list never changes, so the number of customers matching a filter
+	// is counted once.
+	countKey := fmt.Sprintf("%d\x00%s\x00%d\x00%v\x00%s\x00%s", l.ID, f.Search, f.Band, f.Status, f.AttrName, f.AttrValue)
+	total, known := s.counts.get(countKey)
+	pageKey := fmt.Sprintf("%s\x00%d\x00%v", countKey, f.Offset, f.ByKey)
+	rows, cached := s.pages.get(pageKey)
+	if !cached || !known {
+		f.KnownTotal = known
+		var n int
+		if rows, n, err = s.store.ListRows(r.Context(), f); err != nil {
+			s.fail(w, r, err)
+			return
+		}
+		if !known {
+			total = n
+			s.counts.put(countKey, n)
+		}
+		s.pages.put(pageKey, rows)
 	}
 	statusWords := map[int]string{store.RowScored: "not selected", store.RowContact: "to contact", store.RowHoldout: "held out", store.RowNotContactable: "may not be contacted"}
 	for _, c := range rows {
@@ -405,10 +431,22 @@ func (s *Server) handleListExport(w http.ResponseWriter, r *http.Request) {
 	s.streamList(w, r, l, file[0], fmt.Sprintf("ebb-%s-%s-%s", d.Name, l.AsOf, file[1]), r.URL.Query()["attr"])
 }
 
+// csvKey names a cached export: the list, its format and attributes.
+type csvKey struct {
+	list          int64
+	format, attrs string
+}
+
+// maxCachedExport is the largest export kept in memory: a published list
+// never changes, so the campaign tools that fetch it every few minutes get
+// the same bytes without a query. Larger lists stream from the database
+// every time, in flat memory.
+const maxCachedExport = 4 << 20
+
 // streamList sends an export; nothing is written before the export has
 // checked its options, so a bad option still gets a clean error page.
 func (s *Server) streamList(w http.ResponseWriter, r *http.Request, l store.List, format, filename string, attrs []string) {
-	sum := analysis.SummaryOf(l)
+	sum := s.summary(l)
 	for _, a := range attrs {
 		if !slices.Contains(sum.Attributes, a) {
 			s.fail(w, r, problem.New(problem.Invalid, "this dataset's customers have no attribute %q", a))
@@ -422,9 +460,25 @@ func (s *Server) streamList(w http.ResponseWriter, r *http.Request, l store.List
 	w.Header().Set("Content-Type", ctype)
 	w.Header().Set("Content-Disposition", mimeAttachment(filename))
 	w.Header().Set("Cache-Control", "no-store")
-	if err := analysis.ExportList(r.Context(), s.store, l, format, attrs, w); err != nil {
+	key := csvKey{l.ID, format, strings.Join(attrs, "\x00")}
+	if b, ok := s.csvs.get(key); ok && l.Published {
+		w.Write(b)
+		return
+	}
+	small := l.Published && sum.Contact+sum.Holdout <= maxCachedExport/256
+	var buf *bytes.Buffer
+	out := io.Writer(w)
+	if small {
+		buf = &bytes.Buffer{}
+		out = io.MultiWriter(w, buf)
+	}
+	if err := analysis.ExportList(r.Context(), s.store, l, format, attrs, out); err != nil {
 		// The response has begun; the log keeps the error.
 		s.log.Error("export list", "list", l.ID, "err", err)
+		return
+	}
+	if small && buf.Len() <= maxCachedExport {
+		s.csvs.put(key, buf.Bytes())
 	}
 }
 

@@ -20,8 +20,16 @@ import (
 func f3(x float64) string { return strconv.FormatFloat(x, 'f', 3, 64) }
 
 // latestReport returns the dataset's newest training report.
+// A run never changes, so its decoded report is kept (s.reports).
 func (s *Server) latestReport(r *http.Request, datasetID int64) (store.TrainingRun, *analysis.TrainReport, error) {
-	run, err := s.store.LatestTrainingRun(r.Context(), datasetID)
+	id, err := s.store.LatestTrainingRunID(r.Context(), datasetID)
+	if err != nil {
+		return store.TrainingRun{}, nil, err
+	}
+	if c, ok := s.reports.get(id); ok {
+		return c.run, c.rep, nil
+	}
+	run, err := s.store.TrainingRunByID(r.Context(), id)
 	if err != nil {
 		return run, nil, err
 	}
@@ -29,7 +37,15 @@ func (s *Server) latestReport(r *http.Request, datasetID int64) (store.TrainingR
 	if err := json.Unmarshal(run.Report, &rep); err != nil {
 		return run, nil, fmt.Errorf("training run %d: %w", run.ID, err)
 	}
+	run.Report = nil
+	s.reports.put(id, cachedReport{run, &rep})
 	return run, &rep, nil
+}
+
+// cachedReport is a training run with its decoded report.
+type cachedReport struct {
+	run store.TrainingRun
+	rep *analysis.TrainReport
 }
 
 func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
@@ -53,7 +69,7 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 		s.fail(w, r, err)
 		return
 	}
-	stored, err := s.store.Models(r.Context(), d.ID)
+	stored, err := s.store.ModelsBrief(r.Context(), d.ID)
 	if err != nil {
 		s.fail(w, r, err)
 		return
@@ -127,13 +143,11 @@ func (s *Server) handleModels(w http.ResponseWriter, r *http.Request) {
 		v.Folds = append(v.Folds, row)
 	}
 	for _, m := range stored {
-		var sum analysis.ModelReport
-		json.Unmarshal(m.Summary, &sum)
 		use := ""
 		if m.InUse {
 			use = "in use"
 		}
-		v.History = append(v.History, [5]string{views.Count(int(m.ID)), m.Name, views.Count(int(m.RunID)), f3(sum.ROCAUC.Estimate), use})
+		v.History = append(v.History, [5]string{views.Count(int(m.ID)), m.Name, views.Count(int(m.RunID)), f3(s.modelAUC(m)), use})
 	}
 	s.render(w, r, http.StatusOK, views.Models(v))
 }
@@ -340,6 +354,50 @@ func parseTry(r *http.Request, defaultModel string) (tryForm, error) {
 	return f, nil
 }
 
+// rankings returns a run's decoded rankings of one model by test date
+// (kept: a run never changes).
+func (s *Server) rankings(r *http.Request, runID int64, model string) ([]analysis.Ranked, error) {
+	key := rankKey{runID, model}
+	if d, ok := s.ranked.get(key); ok {
+		return d, nil
+	}
+	lists, err := s.store.RankedLists(r.Context(), runID, model)
+	if err != nil {
+		return nil, err
+	}
+	var dates []analysis.Ranked
+	for _, l := range lists {
+		rk, err := analysis.DecodeRanked(l.Data)
+		if err != nil {
+			s.log.Warn("decode ranked list", "run", runID, "model", model, "err", err)
+			return nil, err
+		}
+		dates = append(dates, rk)
+	}
+	s.ranked.put(key, dates)
+	return dates, nil
+}
+
+// rankKey names a run's rankings of one model.
+type rankKey struct {
+	run   int64
+	model string
+}
+
+// modelAUC returns a stored model's test ROC AUC from its summary (kept:
+// a model never changes).
+func (s *Server) modelAUC(m store.StoredModel) float64 {
+	if a, ok := s.aucs.get(m.ID); ok {
+		return a
+	}
+	var sum struct {
+		ROCAUC struct{ Estimate float64 } `json:"roc_auc"`
+	}
+	json.Unmarshal(m.Summary, &sum)
+	s.aucs.put(m.ID, sum.ROCAUC.Estimate)
+	return sum.ROCAUC.Estimate
+}
+
 // tryView answers the "try a list" questions from the stored rankings.
 func (s *Server) tryView(r *http.Request, datasetID, runID int64, names []string, defaultModel string, horizon int) views.TryView {
 	f, err := parseTry(r, defaultModel)
@@ -351,18 +409,9 @@ func (s *Server) tryView(r *http.Request, datasetID, runID int64, names []string
 		v.Error, _ = problem.Message(err)
 		return v
 	}
-	lists, err := s.store.RankedLists(r.Context(), runID, f.model)
-	if err != nil || len(lists) == 0 {
+	dates, err := s.rankings(r, runID, f.model)
+	if err != nil || len(dates) == 0 {
 		return v
-	}
-	var dates []analysis.Ranked
-	for _, l := range lists {
-		rk, err := analysis.DecodeRanked(l.Data)
-		if err != nil {
-			s.log.Warn("decode ranked list", "run", runID, "model", f.model, "err", err)
-			return v
-		}
-		dates = append(dates, rk)
 	}
 	describe := func(what string, size func(analysis.Ranked) int) {
 		var ls []evaluate.List
@@ -468,17 +517,17 @@ func (s *Server) handleTestRows(w http.ResponseWriter, r *http.Request) {
 		s.fail(w, r, err)
 		return
 	}
-	run, err := s.store.LatestTrainingRun(r.Context(), id)
+	runID, err := s.store.LatestTrainingRunID(r.Context(), id)
 	if err != nil {
 		s.fail(w, r, err)
 		return
 	}
-	b, err := s.store.TestRows(r.Context(), run.ID)
+	b, err := s.store.TestRows(r.Context(), runID)
 	if err != nil {
 		s.fail(w, r, err)
 		return
 	}
 	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
-	w.Header().Set("Content-Disposition", fmt.Sprintf(`attachment; filename="test-rows-run-%d.csv"`, run.ID))
+	w.Header().Set("Content-Disposition", fmt.Sprintf(`attachment; filename="test-rows-run-%d.csv"`, runID))
 	w.Write(b)
 }

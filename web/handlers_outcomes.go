@@ -1,6 +1,7 @@
 package web
 
 import (
+	"context"
 	"encoding/json"
 	"fmt"
 	"math"
@@ -79,14 +80,17 @@ func (s *Server) handleOverview(w http.ResponseWriter, r *http.Request) {
 
 	// The model in use.
 	mc := views.OverviewCard{ID: "card-model", Title: "Model in use", Link: link(datasetPath(d.ID) + "/models"), LinkLabel: "The models"}
-	ms, err := s.store.Models(ctx, d.ID)
+	ms, err := s.store.ModelsBrief(ctx, d.ID)
 	if err != nil {
 		s.fail(w, r, err)
 		return
 	}
 	if i := slices.IndexFunc(ms, func(m store.StoredModel) bool { return m.InUse }); i >= 0 {
-		var sum analysis.ModelReport
-		json.Unmarshal(ms[i].Summary, &sum)
+		sum, err := s.modelSummary(ctx, ms[i])
+		if err != nil {
+			s.fail(w, r, err)
+			return
+		}
 		mc.Lines = append(mc.Lines, fmt.Sprintf("%s (model %d, trained %s): ROC AUC %.3f on the test period.", ms[i].Name, ms[i].ID, ms[i].CreatedAt.UTC().Format("2006-01-02"), sum.ROCAUC.Estimate))
 		for _, l := range sum.Lists {
 			if l.Label == "top 10%" {
@@ -94,7 +98,7 @@ func (s *Server) handleOverview(w http.ResponseWriter, r *http.Request) {
 					views.Percent(l.Precision), views.Percent(l.Recall)))
 			}
 		}
-		if m, err := model.Load(ms[i].Model); err == nil && cur.ID != 0 && m.Meta.ChurnDefinitionVersion != strconv.Itoa(cur.Seq) {
+		if cur.ID != 0 && sum.definition != strconv.Itoa(cur.Seq) {
 			v.Attention = append(v.Attention, "The churn definition changed after the model in use was trained: train again before the next list.")
 		}
 	} else {
@@ -108,7 +112,7 @@ func (s *Server) handleOverview(w http.ResponseWriter, r *http.Request) {
 	pub, err := s.store.LatestPublishedList(ctx, d.ID)
 	switch {
 	case err == nil:
-		sum := analysis.SummaryOf(pub)
+		sum := s.summary(pub)
 		lc.Lines = []string{fmt.Sprintf("Published %s, as of %s: %s customers to contact, %s held out.", pub.PublishedAt.UTC().Format("2006-01-02"), pub.AsOf,
 			views.Count(sum.Contact), views.Count(sum.Holdout)),
 			fmt.Sprintf("Expected: %s of the selected will not order again within %d days without outreach.", views.Percent(sum.ExpectedPrecision), sum.HorizonDays)}
@@ -150,6 +154,34 @@ func (s *Server) handleOverview(w http.ResponseWriter, r *http.Request) {
 	}
 	v.Cards = append(v.Cards, ec, dc)
 	s.render(w, r, http.StatusOK, views.Overview(v))
+}
+
+// modelBrief is what the overview shows of a model: its test figures and
+// the churn definition it was trained on.
+type modelBrief struct {
+	analysis.ModelReport
+	definition string
+}
+
+// modelSummary decodes a model's summary and reads its churn definition
+// from the stored model (kept: a model never changes).
+func (s *Server) modelSummary(ctx context.Context, m store.StoredModel) (modelBrief, error) {
+	if b, ok := s.briefs.get(m.ID); ok {
+		return b, nil
+	}
+	var b modelBrief
+	json.Unmarshal(m.Summary, &b.ModelReport)
+	full, err := s.store.ModelByID(ctx, m.ID)
+	if err != nil {
+		return b, err
+	}
+	mod, err := model.Load(full.Model)
+	if err != nil {
+		return b, fmt.Errorf("model %d: %w", m.ID, err)
+	}
+	b.definition = mod.Meta.ChurnDefinitionVersion
+	s.briefs.put(m.ID, b)
+	return b, nil
 }
 
 func stabilityWords(st outcomes.Stability) string {

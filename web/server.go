@@ -12,6 +12,7 @@ import (
 	"github.com/go-chi/chi/v5"
 	"github.com/go-chi/chi/v5/middleware"
 
+	"ebb/internal/analysis"
 	"ebb/internal/auth"
 	"ebb/internal/civil"
 	"ebb/internal/jobs"
@@ -38,7 +39,9 @@ type Store interface {
 	Definitions(ctx context.Context, datasetID int64) ([]store.Definition, error)
 	InsertDefinition(ctx context.Context, d store.Definition) (store.Definition, error)
 	AttributeNames(ctx context.Context, datasetID int64) ([]string, error)
-	LatestTrainingRun(ctx context.Context, datasetID int64) (store.TrainingRun, error)
+	LatestTrainingRunID(ctx context.Context, datasetID int64) (int64, error)
+	TrainingRunByID(ctx context.Context, id int64) (store.TrainingRun, error)
+	ModelsBrief(ctx context.Context, datasetID int64) ([]store.StoredModel, error)
 	Models(ctx context.Context, datasetID int64) ([]store.StoredModel, error)
 	ModelByID(ctx context.Context, id int64) (store.StoredModel, error)
 	UseModel(ctx context.Context, id int64) error
@@ -84,6 +87,16 @@ type Server struct {
 	log      *slog.Logger
 	cfg      Config
 	router   chi.Router
+	// Decoded immutable things: training reports by run, list summaries
+	// and small published lists' CSV by list.
+	reports   *lru[int64, cachedReport]
+	summaries *lru[int64, analysis.ListSummary]
+	csvs      *lru[csvKey, []byte]
+	ranked    *lru[rankKey, []analysis.Ranked]
+	aucs      *lru[int64, float64]
+	counts    *lru[string, int]
+	pages     *lru[string, []store.ListedCustomer]
+	briefs    *lru[int64, modelBrief]
 }
 
 // New returns a server.
@@ -94,7 +107,10 @@ func New(st Store, accounts *auth.Accounts, sessions *auth.Sessions, tokens *aut
 	if cfg.Now == nil {
 		cfg.Now = time.Now
 	}
-	s := &Server{store: st, accounts: accounts, sessions: sessions, tokens: tokens, jobs: jr, log: log, cfg: cfg}
+	s := &Server{store: st, accounts: accounts, sessions: sessions, tokens: tokens, jobs: jr, log: log, cfg: cfg,
+		reports: newLRU[int64, cachedReport](8), summaries: newLRU[int64, analysis.ListSummary](64), csvs: newLRU[csvKey, []byte](16),
+		ranked: newLRU[rankKey, []analysis.Ranked](16), aucs: newLRU[int64, float64](256), counts: newLRU[string, int](1024),
+		pages: newLRU[string, []store.ListedCustomer](256), briefs: newLRU[int64, modelBrief](64)}
 	s.router = s.routes()
 	return s
 }

@@ -65,8 +65,14 @@ func ExportList(ctx context.Context, st ListRowReader, l store.List, format stri
 	}
 	vals := make([]string, len(attrs))
 	err := st.EachListRow(ctx, l.DatasetID, l.ID, []int{status}, func(c store.ListedCustomer) error {
-		for k, a := range attrs {
-			vals[k] = c.Attributes[a]
+		if len(attrs) > 0 {
+			m, err := c.Attributes()
+			if err != nil {
+				return err
+			}
+			for k, a := range attrs {
+				vals[k] = m[a]
+			}
 		}
 		return write(lists.Row{Key: c.Key, Email: c.Email, Probability: c.Probability, Band: BandOf(c.Band), Reasons: c.Reasons,
 			ListDate: l.AsOf, Attrs: vals})

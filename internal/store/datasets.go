@@ -625,6 +625,11 @@ func (s *Store) FinishImport(ctx context.Context, imp Import, st ImportStats) er
 		if n, _ := res.RowsAffected(); n != 1 {
 			return fmt.Errorf("version %d is no longer loading", imp.VersionID)
 		}
+		for _, name := range st.AttributeNames {
+			if _, err := tx.ExecContext(ctx, `INSERT OR IGNORE INTO dataset_attributes (dataset_id, name) VALUES (?, ?)`, imp.DatasetID, name); err != nil {
+				return err
+			}
+		}
 		return updateCustomers(ctx, tx, imp.DatasetID, st.AttributeNames, st.Updates)
 	})
 	if err != nil {

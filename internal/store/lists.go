@@ -48,7 +48,22 @@ type ListRow struct {
 type ListedCustomer struct {
 	ListRow
 	Key, Email string
-	Attributes map[string]string
+	// AttributesJSON is the customer's attributes as stored (a JSON object,
+	// "" for none); Attributes decodes it, only when asked, since most
+	// readers of a long list never look.
+	AttributesJSON string
+}
+
+// Attributes decodes the customer's attributes (nil for none).
+func (c ListedCustomer) Attributes() (map[string]string, error) {
+	if c.AttributesJSON == "" {
+		return nil, nil
+	}
+	var m map[string]string
+	if err := json.Unmarshal([]byte(c.AttributesJSON), &m); err != nil {
+		return nil, fmt.Errorf("attributes of customer %s: %w", c.Key, err)
+	}
+	return m, nil
 }
 
 const listColumns = `id, dataset_id, version_id, model_id, as_of, data_through, state, summary, created_by, created_at,
@@ -211,14 +226,26 @@ type ListFilter struct {
 	AttrName, AttrValue string
 	ByKey               bool // order by customer key instead of rank
 	Offset, Limit       int
+	// KnownTotal skips counting the matches (a caller that counted this
+	// filter before passes the count it got); ListRows then returns -1.
+	KnownTotal bool
 }
 
 // ListRows returns one page of a list's customers and how many match.
 func (s *Store) ListRows(ctx context.Context, f ListFilter) ([]ListedCustomer, int, error) {
 	where, args := listWhere(f)
-	var total int
-	if err := s.r.QueryRowContext(ctx, `SELECT count(*) FROM list_rows r JOIN customers c ON c.dataset_id = ? AND c.id = r.customer_id WHERE `+where,
-		append([]any{f.DatasetID}, args...)...).Scan(&total); err != nil {
+	total := -1
+	var err error
+	switch {
+	case f.KnownTotal:
+	case f.Search == "" && f.AttrName == "":
+		// Nothing to match on the customers: count the list's rows alone.
+		err = s.r.QueryRowContext(ctx, `SELECT count(*) FROM list_rows r WHERE `+where, args...).Scan(&total)
+	default:
+		err = s.r.QueryRowContext(ctx, `SELECT count(*) FROM list_rows r JOIN customers c ON c.dataset_id = ? AND c.id = r.customer_id WHERE `+where,
+			append([]any{f.DatasetID}, args...)...).Scan(&total)
+	}
+	if err != nil {
 		return nil, 0, fmt.Errorf("count rows of list %d: %w", f.ListID, err)
 	}
 	order := "r.rank"
@@ -274,16 +301,8 @@ const listedColumns = `r.rank, r.customer_id, r.probability, r.band, r.status, r
 
 func scanListed(sc interface{ Scan(...any) error }) (ListedCustomer, error) {
 	var c ListedCustomer
-	var attrs string
-	if err := sc.Scan(&c.Rank, &c.Customer, &c.Probability, &c.Band, &c.Status, &c.Reasons, &c.Key, &c.Email, &attrs); err != nil {
-		return c, err
-	}
-	if attrs != "" {
-		if err := json.Unmarshal([]byte(attrs), &c.Attributes); err != nil {
-			return c, fmt.Errorf("attributes of customer %s: %w", c.Key, err)
-		}
-	}
-	return c, nil
+	err := sc.Scan(&c.Rank, &c.Customer, &c.Probability, &c.Band, &c.Status, &c.Reasons, &c.Key, &c.Email, &c.AttributesJSON)
+	return c, err
 }
 
 // listWhere builds the filter's WHERE clause from fixed fragments; every

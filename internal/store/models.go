@@ -210,3 +210,36 @@ func (s *Store) TestRows(ctx context.Context, runID int64) ([]byte, error) {
 	}
 	return b, nil
 }
+
+// LatestTrainingRunID returns the id of the dataset's newest training run.
+func (s *Store) LatestTrainingRunID(ctx context.Context, datasetID int64) (int64, error) {
+	var id int64
+	err := s.r.QueryRowContext(ctx, `SELECT id FROM training_runs WHERE dataset_id = ? ORDER BY id DESC LIMIT 1`, datasetID).Scan(&id)
+	if errors.Is(err, sql.ErrNoRows) {
+		return 0, problem.New(problem.NotFound, "no model has been trained on this dataset yet")
+	}
+	if err != nil {
+		return 0, fmt.Errorf("latest training run of dataset %d: %w", datasetID, err)
+	}
+	return id, nil
+}
+
+// ModelsBrief lists a dataset's models, newest first, without the models
+// themselves (only their summaries), for pages that list them.
+func (s *Store) ModelsBrief(ctx context.Context, datasetID int64) ([]StoredModel, error) {
+	rows, err := s.r.QueryContext(ctx, `SELECT id, run_id, dataset_id, name, kind, '', summary, in_use, created_at FROM models WHERE dataset_id = ? ORDER BY id DESC`, datasetID)
+	if err != nil {
+		return nil, fmt.Errorf("list models of dataset %d: %w", datasetID, err)
+	}
+	defer rows.Close()
+	var out []StoredModel
+	for rows.Next() {
+		m, err := scanModel(rows)
+		if err != nil {
+			return nil, fmt.Errorf("list models of dataset %d: %w", datasetID, err)
+		}
+		m.Model = nil
+		out = append(out, m)
+	}
+	return out, rows.Err()
+}

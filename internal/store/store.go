@@ -26,7 +26,7 @@ type Store struct {
 	path string
 	lock *fileLock // held shared while open; see Open
 	w    *sql.DB   // one connection: every write goes through it
-	r    *sql.DB   // read-only pool
+	r    *readPool // read-only pool, statements prepared once
 	now  func() time.Time
 }
 
@@ -71,7 +71,7 @@ func Open(ctx context.Context, path string, opt Options) (*Store, error) {
 	}
 	r.SetMaxOpenConns(opt.Readers)
 	r.SetMaxIdleConns(opt.Readers)
-	s.r = r
+	s.r = &readPool{DB: r}
 	// Versions left loading are purged only when no other process has the
 	// database open: another ebb (a server while "ebb import" starts, say)
 	// may be in the middle of an import. Every open Store holds a shared

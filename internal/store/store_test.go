@@ -724,7 +724,7 @@ func TestPragmas(t *testing.T) {
 	for _, c := range checks {
 		db := st.w
 		if c.reader {
-			db = st.r
+			db = st.r.DB
 		}
 		var v int
 		if err := db.QueryRowContext(ctx, `PRAGMA `+c.pragma).Scan(&v); err != nil {

@@ -143,8 +143,7 @@ func (s *Store) CurrentDefinition(ctx context.Context, datasetID int64) (Definit
 // AttributeNames lists the attribute columns stored for a dataset's
 // customers, by name.
 func (s *Store) AttributeNames(ctx context.Context, datasetID int64) ([]string, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT DISTINCT j.key FROM customers c, json_each(c.attributes) j
-		WHERE c.dataset_id = ? AND c.attributes IS NOT NULL ORDER BY 1`, datasetID)
+	rows, err := s.r.QueryContext(ctx, `SELECT name FROM dataset_attributes WHERE dataset_id = ? ORDER BY name`, datasetID)
 	if err != nil {
 		return nil, fmt.Errorf("attribute names of dataset %d: %w", datasetID, err)
 	}
