@@ -248,11 +248,6 @@ func Score(ctx context.Context, st *store.Store, cache *Histories, req ScoreRequ
 	if err != nil {
 		return nil, fmt.Errorf("drift: %w", err)
 	}
-	progress(45, "reasons")
-	reasons, err := listReasons(m, fr)
-	if err != nil {
-		return nil, err
-	}
 	progress(70, "selecting")
 	contacts, err := st.CustomerContacts(ctx, d.ID)
 	if err != nil {
@@ -288,6 +283,13 @@ func Score(ctx context.Context, st *store.Store, cache *Histories, req ScoreRequ
 		}
 		return false
 	})
+	if err != nil {
+		return nil, err
+	}
+	progress(60, "reasons")
+	// Reasons for the selected customers: what a marketer reads. The other
+	// scores are kept without.
+	reasons, err := listReasons(m, fr, append(slices.Clone(sel.Contact), sel.Holdout...))
 	if err != nil {
 		return nil, err
 	}
@@ -393,9 +395,10 @@ func runReport(ctx context.Context, st *store.Store, runID int64) (*TrainReport,
 	return &rep, nil
 }
 
-// listReasons gives every row up to three reasons from the model's
-// per-feature contributions.
-func listReasons(m *model.Model, fr *frame.Frame) ([]string, error) {
+// listReasons gives the given rows up to three reasons each from the
+// model's per-feature contributions (computed on every row: occlusion
+// compares with the medians of all scored customers); other rows get none.
+func listReasons(m *model.Model, fr *frame.Frame, rows []int) ([]string, error) {
 	_, contrib, err := m.Contributions(fr)
 	if err != nil {
 		return nil, fmt.Errorf("reasons: %w", err)
@@ -414,7 +417,7 @@ func listReasons(m *model.Model, fr *frame.Frame) ([]string, error) {
 	for j := range names {
 		cols[j] = fr.ColAt(j)
 	}
-	for i := range out {
+	for _, i := range rows {
 		for j := range names {
 			values[j] = cols[j][i]
 			cs[j] = 0

@@ -3,6 +3,7 @@ package store
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -279,22 +280,50 @@ func (s *Store) ListRows(ctx context.Context, f ListFilter) ([]ListedCustomer, i
 // long the list). fn's error stops the walk and is returned.
 func (s *Store) EachListRow(ctx context.Context, datasetID, listID int64, statuses []int, fn func(ListedCustomer) error) error {
 	where, args := listWhere(ListFilter{ListID: listID, Band: -1, Status: statuses})
-	rows, err := s.r.QueryContext(ctx, `SELECT `+listedColumns+` FROM list_rows r JOIN customers c ON c.dataset_id = ? AND c.id = r.customer_id
-		WHERE `+where+` ORDER BY r.rank`, append([]any{datasetID}, args...)...)
-	if err != nil {
+	// Through the driver directly: a long export reads hundreds of
+	// thousands of rows, and database/sql's per-row conversions cost as much
+	// as SQLite's reading.
+	err := s.readRaw(ctx, func(q driver.ConnPrepareContext) error {
+		return rawQuery(ctx, q, `SELECT `+listedColumns+` FROM list_rows r JOIN customers c ON c.dataset_id = ? AND c.id = r.customer_id
+			WHERE `+where+` ORDER BY r.rank`, append([]any{datasetID}, args...), func(row []driver.Value) error {
+			c, err := listedFromRaw(row)
+			if err != nil {
+				return err
+			}
+			return fn(c)
+		})
+	})
+	if err != nil && problem.As(err) == nil {
 		return fmt.Errorf("read list %d: %w", listID, err)
 	}
-	defer rows.Close()
-	for rows.Next() {
-		c, err := scanListed(rows)
-		if err != nil {
-			return fmt.Errorf("read list %d: %w", listID, err)
-		}
-		if err := fn(c); err != nil {
-			return err
-		}
+	return err
+}
+
+// listedFromRaw converts a driver row of listedColumns.
+func listedFromRaw(row []driver.Value) (ListedCustomer, error) {
+	var c ListedCustomer
+	rank, ok1 := row[0].(int64)
+	cust, ok2 := row[1].(int64)
+	prob, ok3 := row[2].(float64)
+	band, ok4 := row[3].(int64)
+	status, ok5 := row[4].(int64)
+	if !ok1 || !ok2 || !ok3 || !ok4 || !ok5 {
+		return c, fmt.Errorf("list row %v has unexpected column types", row[:5])
 	}
-	return rows.Err()
+	c.Rank, c.Customer, c.Probability, c.Band, c.Status = int(rank), int32(cust), prob, int(band), int(status)
+	c.Reasons, c.Key, c.Email, c.AttributesJSON = rawString(row[5]), rawString(row[6]), rawString(row[7]), rawString(row[8])
+	return c, nil
+}
+
+// rawString reads a TEXT value of a driver row ("" for NULL).
+func rawString(v driver.Value) string {
+	switch x := v.(type) {
+	case string:
+		return x
+	case []byte:
+		return string(x)
+	}
+	return ""
 }
 
 const listedColumns = `r.rank, r.customer_id, r.probability, r.band, r.status, r.reasons, c.key, COALESCE(c.email, ''), COALESCE(c.attributes, '')`
@@ -377,26 +406,27 @@ type CustomerContact struct {
 	Contactable bool
 }
 
-// CustomerContacts returns every customer of a dataset by dense id.
+// CustomerContacts returns every customer of a dataset by dense id: key,
+// email and whether they may be contacted. It reads through the driver
+// directly (a dataset can hold millions of customers).
 func (s *Store) CustomerContacts(ctx context.Context, datasetID int64) ([]CustomerContact, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT id, key, COALESCE(email, ''), contactable FROM customers WHERE dataset_id = ? ORDER BY id`, datasetID)
+	var out []CustomerContact
+	err := s.readRaw(ctx, func(q driver.ConnPrepareContext) error {
+		return rawQuery(ctx, q, `SELECT id, key, COALESCE(email, ''), contactable FROM customers WHERE dataset_id = ? ORDER BY id`, []any{datasetID},
+			func(row []driver.Value) error {
+				id, ok1 := row[0].(int64)
+				ok, ok2 := row[3].(int64)
+				if !ok1 || !ok2 || id != int64(len(out)) {
+					return fmt.Errorf("customer row %v out of sequence or of unexpected types", row)
+				}
+				out = append(out, CustomerContact{Key: rawString(row[1]), Email: rawString(row[2]), Contactable: ok != 0})
+				return nil
+			})
+	})
 	if err != nil {
 		return nil, fmt.Errorf("customers of dataset %d: %w", datasetID, err)
 	}
-	defer rows.Close()
-	var out []CustomerContact
-	for rows.Next() {
-		var id int
-		var c CustomerContact
-		if err := rows.Scan(&id, &c.Key, &c.Email, &c.Contactable); err != nil {
-			return nil, err
-		}
-		if id != len(out) {
-			return nil, fmt.Errorf("customers of dataset %d: id %d out of sequence", datasetID, id)
-		}
-		out = append(out, c)
-	}
-	return out, rows.Err()
+	return out, nil
 }
 
 // TrainingRunByID returns one training run.

@@ -328,7 +328,13 @@ func rawQuery(ctx context.Context, q driver.ConnPrepareContext, query string, ar
 	}
 	named := make([]driver.NamedValue, len(args))
 	for i, a := range args {
-		named[i] = driver.NamedValue{Ordinal: i + 1, Value: a}
+		// The driver takes only driver.Value types: int becomes int64 as
+		// database/sql would convert it.
+		v, err := driver.DefaultParameterConverter.ConvertValue(a)
+		if err != nil {
+			return fmt.Errorf("argument %d: %w", i+1, err)
+		}
+		named[i] = driver.NamedValue{Ordinal: i + 1, Value: v}
 	}
 	rows, err := sq.QueryContext(ctx, named)
 	if err != nil {
