@@ -106,12 +106,12 @@ func Load(ctx context.Context, st *store.Store, b demo.Business, now time.Time) 
 	if err := st.SetSalt(ctx, out.DatasetID, []byte("Larkspur Refills demo holdout salt")); err != nil {
 		return nil, err
 	}
-	if _, err := analysis.SaveDefinition(ctx, st, out.DatasetID, analysis.DefinitionInput{WindowDays: WindowDays, Method: "mean-gap", Rationale: rationale}, "demo", now); err != nil {
+	if _, err := analysis.SaveDefinition(ctx, st, out.DatasetID, analysis.DefinitionInput{WindowDays: WindowDays, Method: "mean-gap", Rationale: rationale}, "demo", ListDates[0].Add(8*time.Hour)); err != nil {
 		return nil, fmt.Errorf("demo: definition: %w", err)
 	}
 	truth := b.Truth() // no list has treated anyone before the first list date
 	topt := analysis.TrainOptions{Truth: func(key string, day civil.Date, h int) float64 { return truth(key, day.Time(), h) }}
-	if _, _, err := analysis.Train(ctx, st, cache, out.DatasetID, topt, "demo", now, nil); err != nil {
+	if _, _, err := analysis.Train(ctx, st, cache, out.DatasetID, topt, "demo", ListDates[0].Add(8*time.Hour+30*time.Minute), nil); err != nil {
 		return nil, fmt.Errorf("demo: train: %w", err)
 	}
 	share := holdoutShare
@@ -122,7 +122,7 @@ func Load(ctx context.Context, st *store.Store, b demo.Business, now time.Time) 
 			}
 		}
 		res, err := analysis.Score(ctx, st, cache, analysis.ScoreRequest{DatasetID: out.DatasetID, Rule: analysis.ListRule{Size: listSize},
-			Holdout: &share, Publish: true, By: "demo", Now: now}, nil)
+			Holdout: &share, Publish: true, By: "demo", Now: day.Add(9 * time.Hour)}, nil) // drafted and published on its date
 		if err != nil {
 			return nil, fmt.Errorf("demo: list of %s: %w", day.Format(time.DateOnly), err)
 		}
