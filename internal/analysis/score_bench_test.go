@@ -1,17 +1,13 @@
 package analysis_test
 
 import (
-	"bytes"
 	"context"
 	"io"
-	"path/filepath"
 	"testing"
 	"time"
 
-	"ebb/demo"
 	"ebb/internal/analysis"
 	"ebb/internal/history"
-	"ebb/internal/store"
 )
 
 // BenchmarkScoreList drafts a list of every eligible customer with the
@@ -25,25 +21,7 @@ func BenchmarkScoreList(b *testing.B) {
 		b.Skip("imports a 3.9M-order demo; skipped under -short")
 	}
 	ctx := context.Background()
-	now := time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
-	st, err := store.Open(ctx, filepath.Join(b.TempDir(), "score.db"), store.Options{Now: func() time.Time { return now }})
-	if err != nil {
-		b.Fatal(err)
-	}
-	defer st.Close()
-	biz := demo.Generate(demo.Options{Customers: 800_000})
-	var orders, customers bytes.Buffer
-	biz.WriteOrders(&orders)
-	biz.WriteCustomers(&customers)
-	res, err := analysis.Import(ctx, st, analysis.ImportRequest{Dataset: "big", Orders: analysis.Source{Name: "orders.csv", R: &orders},
-		Customers: &analysis.Source{Name: "customers.csv", R: &customers}, Now: now})
-	if err != nil {
-		b.Fatal(err)
-	}
-	id := res.Import.DatasetID
-	if _, err := analysis.SaveDefinition(ctx, st, id, analysis.DefinitionInput{WindowDays: 120, Rationale: "benchmark"}, "bench", now); err != nil {
-		b.Fatal(err)
-	}
+	st, id, now := bigDemo(b, 800_000, 120)
 	cache := history.NewCache(1)
 	if _, _, err := analysis.Train(ctx, st, cache, id, analysis.TrainOptions{Models: []string{"trees"}, Bootstrap: 20}, "bench", now, nil); err != nil {
 		b.Fatal(err)

@@ -15,8 +15,8 @@ func PrecisionSentence(size, positives, horizonDays int) string {
 		return "This list is empty."
 	}
 	return fmt.Sprintf("Of the %s %s on this list, %s (%s) did not order again within %s %s.",
-		count(size), plural(size, "customer", "customers"), count(positives), percent(positives, size),
-		count(horizonDays), plural(horizonDays, "day", "days"))
+		Count(size), Plural(size, "customer", "customers"), Count(positives), percent(positives, size),
+		Count(horizonDays), Plural(horizonDays, "day", "days"))
 }
 
 // RecallSentence describes a list's recall in words, e.g. "Of the 350
@@ -32,7 +32,7 @@ func RecallSentence(allPositives, positives int) string {
 		verb = "was"
 	}
 	return fmt.Sprintf("Of the %s %s who did not order again, %s (%s) %s on the list.",
-		count(allPositives), plural(allPositives, "customer", "customers"), count(positives), percent(positives, allPositives), verb)
+		Count(allPositives), Plural(allPositives, "customer", "customers"), Count(positives), percent(positives, allPositives), verb)
 }
 
 // percent rounds part/whole to a whole percent, but never shows 0% for a
@@ -48,15 +48,16 @@ func percent(part, whole int) string {
 	return strconv.Itoa(int(p)) + "%"
 }
 
-func plural(n int, one, many string) string {
+// Plural picks the word for n: one when n is 1, many otherwise.
+func Plural(n int, one, many string) string {
 	if n == 1 {
 		return one
 	}
 	return many
 }
 
-// count writes n with thousands separators: 12,345.
-func count(n int) string {
+// Count writes n with thousands separators: 12,345.
+func Count(n int) string {
 	s := strconv.Itoa(n)
 	neg := n < 0
 	if neg {

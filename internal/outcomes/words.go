@@ -3,6 +3,8 @@ package outcomes
 import (
 	"math"
 	"strconv"
+
+	"ebb/internal/evaluate"
 )
 
 // The format helpers of the sentences: whole percents for rates, one
@@ -33,28 +35,10 @@ func points(d float64) string {
 	return strconv.FormatFloat(math.Abs(100*d), 'f', 1, 64)
 }
 
-func plural(n int, one, many string) string {
-	if n == 1 {
-		return one
-	}
-	return many
-}
-
-// count writes n with thousands separators: 12,345.
-func count(n int) string {
-	s := strconv.Itoa(n)
-	neg := n < 0
-	if neg {
-		s = s[1:]
-	}
-	for i := len(s) - 3; i > 0; i -= 3 {
-		s = s[:i] + "," + s[i:]
-	}
-	if neg {
-		s = "-" + s
-	}
-	return s
-}
+// plural and count are evaluate's, so every sentence of ebb writes numbers
+// the same way.
+func plural(n int, one, many string) string { return evaluate.Plural(n, one, many) }
+func count(n int) string                    { return evaluate.Count(n) }
 
 // customers writes "1 customer" or "12,345 customers".
 func customers(n int) string {
