@@ -148,6 +148,9 @@ func (s *Server) handleOverview(w http.ResponseWriter, r *http.Request) {
 			dc.Lines = []string{"No list to compare with training yet."}
 		}
 		v.Attention = append(v.Attention, rep.Attention...)
+		if rep.Version < d.Seq {
+			v.Attention = append(v.Attention, fmt.Sprintf("Orders were imported after the outcomes were last measured (on version %d; the dataset is at version %d): measure them again.", rep.Version, d.Seq))
+		}
 	} else {
 		ec.Lines = []string{"Not measured yet."}
 		dc.Lines = []string{"Not measured yet."}

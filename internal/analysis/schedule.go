@@ -129,6 +129,10 @@ func ScheduledListJob(st *store.Store, cache *Histories, now func() time.Time) j
 		state := "drafted"
 		if out.Published {
 			state = "published"
+			// The outcomes now cover this list and whatever matured since.
+			if _, err := Measure(ctx, st, cache, d.ID, now(), nil); err != nil {
+				return nil, fmt.Errorf("measure after publishing list %d: %w", out.ListID, err)
+			}
 		}
 		res.Note = fmt.Sprintf("List %d %s: %d selected, %d to contact.%s", out.ListID, state, out.Summary.Selected, out.Summary.Contact, late)
 		return json.Marshal(res)
