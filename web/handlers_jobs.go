@@ -13,6 +13,23 @@ import (
 
 var jobFilterRecent = jobs.Filter{Limit: 100}
 
+// kindWords names a job kind for people.
+func kindWords(kind string) string {
+	switch kind {
+	case analysis.KindWindow:
+		return "churn window"
+	case analysis.KindTrain:
+		return "training"
+	case analysis.KindScore:
+		return "list"
+	case analysis.KindScheduledList:
+		return "scheduled list"
+	case analysis.KindMeasure:
+		return "outcomes"
+	}
+	return kind
+}
+
 func jobPath(id int64) string { return "/jobs/" + strconv.FormatInt(id, 10) }
 
 func (s *Server) handleJobs(w http.ResponseWriter, r *http.Request) {
@@ -23,7 +40,7 @@ func (s *Server) handleJobs(w http.ResponseWriter, r *http.Request) {
 	}
 	v := views.JobsView{Chrome: s.chrome(w, r, "Jobs", "jobs")}
 	for _, j := range js {
-		v.Jobs = append(v.Jobs, views.JobRow{ID: j.ID, Kind: j.Kind, Status: string(j.Status),
+		v.Jobs = append(v.Jobs, views.JobRow{ID: j.ID, Kind: kindWords(j.Kind), Status: string(j.Status),
 			Progress: strconv.Itoa(int(j.Progress)) + "%", Message: jobNote(j), By: j.CreatedBy,
 			Created: j.CreatedAt.UTC().Format("2006-01-02 15:04 UTC")})
 	}
@@ -53,7 +70,7 @@ func (s *Server) handleJobShow(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	v := views.JobView{
-		Chrome: s.chrome(w, r, fmt.Sprintf("Job %d", j.ID), "jobs"), ID: j.ID, Kind: j.Kind, Status: string(j.Status),
+		Chrome: s.chrome(w, r, fmt.Sprintf("Job %d", j.ID), "jobs"), ID: j.ID, Kind: kindWords(j.Kind), Status: string(j.Status),
 		Finished: j.Status.Finished(), Progress: j.Progress, ProgressText: strconv.Itoa(int(j.Progress)),
 		Message: j.Message, Error: j.Error, By: j.CreatedBy, Created: j.CreatedAt.UTC().Format("2006-01-02 15:04:05 UTC"),
 		RerunOf: j.RerunOf, CanCancel: !j.Status.Finished(),
