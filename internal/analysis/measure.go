@@ -131,6 +131,7 @@ func Measure(ctx context.Context, st *store.Store, cache *Histories, datasetID i
 		}
 		hold := lists.Holdout{Salt: d.Salt, Share: sum.HoldoutShare, PeriodDays: lists.PeriodDays(sum.HorizonDays)}
 		period := hold.Period(l.AsOf)
+		member := hold.Members(period)
 		var rows []outcomes.Scored
 		err := st.EachListRow(ctx, d.ID, l.ID, []int{store.RowScored, store.RowContact, store.RowHoldout}, func(c store.ListedCustomer) error {
 			no := h.CountIn(int(c.Customer), l.AsOf, l.AsOf+civil.Date(sum.HorizonDays)) == 0
@@ -138,7 +139,7 @@ func Measure(ctx context.Context, st *store.Store, cache *Histories, datasetID i
 			selected := c.Status == store.RowContact || c.Status == store.RowHoldout
 			// Holdout members not selected were not contacted either: they
 			// join the calibration.
-			inHoldout := c.Status == store.RowHoldout || c.Status == store.RowScored && hold.In(c.Key, period)
+			inHoldout := c.Status == store.RowHoldout || c.Status == store.RowScored && member(c.Key)
 			rows = append(rows, outcomes.Scored{Probability: c.Probability, Selected: selected, Holdout: inHoldout, Band: band, NoReorder: no})
 			if selected {
 				week := weekStart(l.AsOf)

@@ -254,11 +254,12 @@ func Score(ctx context.Context, st *store.Store, cache *Histories, req ScoreRequ
 		return nil, err
 	}
 	cands := make([]lists.Candidate, tab.Rows())
+	tieKey := lists.TieKeys(d.Salt)
 	for i, c := range tab.Customer {
 		if int(c) >= len(contacts) {
 			return nil, fmt.Errorf("score list: customer %d has no record", c)
 		}
-		cands[i] = lists.Candidate{Customer: c, Key: contacts[c].Key, Score: probs[i], TieKey: lists.TieKey(d.Salt, contacts[c].Key),
+		cands[i] = lists.Candidate{Customer: c, Key: contacts[c].Key, Score: probs[i], TieKey: tieKey(contacts[c].Key),
 			Contactable: contacts[c].Contactable}
 	}
 	// A customer held out on a published list in the last H days stays
@@ -268,13 +269,14 @@ func Score(ctx context.Context, st *store.Store, cache *Histories, req ScoreRequ
 		return nil, err
 	}
 	period := hold.Period(asOf)
+	member := hold.Members(period)
 	heldOver := 0
 	byKey := make(map[string]int32, len(heldBefore))
 	for c := range heldBefore {
 		byKey[contacts[c].Key] = c
 	}
 	sel, err := lists.Select(cands, rule, func(key string) bool {
-		if hold.In(key, period) {
+		if member(key) {
 			return true
 		}
 		if _, ok := byKey[key]; ok {

@@ -138,9 +138,18 @@ func Ranked(cands []Candidate) []int {
 // "tie:" and the customer key, so ties never follow input order and are
 // not guessable without the salt. The prefix keeps it apart from the
 // holdout's hash.
-func TieKey(salt []byte, customerKey string) uint64 {
+func TieKey(salt []byte, customerKey string) uint64 { return TieKeys(salt)(customerKey) }
+
+// TieKeys returns TieKey under one salt as a function that reuses its HMAC
+// state: faster for many customers, and not safe for concurrent use.
+func TieKeys(salt []byte) func(customerKey string) uint64 {
 	mac := hmac.New(sha256.New, salt)
-	mac.Write([]byte("tie:"))
-	mac.Write([]byte(customerKey))
-	return binary.BigEndian.Uint64(mac.Sum(nil))
+	var sum []byte
+	return func(key string) uint64 {
+		mac.Reset()
+		mac.Write([]byte("tie:"))
+		mac.Write([]byte(key))
+		sum = mac.Sum(sum[:0])
+		return binary.BigEndian.Uint64(sum)
+	}
 }

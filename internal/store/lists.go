@@ -100,13 +100,24 @@ func (s *Store) InsertList(ctx context.Context, l List, rows []ListRow) (int64, 
 		}
 		id, _ = res.LastInsertId()
 		const perInsert = 500
+		head, row := `INSERT INTO list_rows (list_id, rank, customer_id, probability, band, status, reasons) VALUES `, "(?,?,?,?,?,?,?)"
+		// One statement compiled for every full chunk of rows.
+		full, err := tx.PrepareContext(ctx, multiInsert(head, row, perInsert))
+		if err != nil {
+			return err
+		}
+		defer full.Close()
 		args := make([]any, 0, 7*perInsert)
 		flush := func() error {
-			if len(args) == 0 {
+			var err error
+			switch n := len(args) / 7; n {
+			case 0:
 				return nil
+			case perInsert:
+				_, err = full.ExecContext(ctx, args...)
+			default:
+				_, err = tx.ExecContext(ctx, multiInsert(head, row, n), args...)
 			}
-			_, err := tx.ExecContext(ctx, multiInsert(`INSERT INTO list_rows (list_id, rank, customer_id, probability, band, status, reasons) VALUES `,
-				"(?,?,?,?,?,?,?)", len(args)/7), args...)
 			args = args[:0]
 			return err
 		}
