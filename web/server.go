@@ -52,7 +52,7 @@ type Store interface {
 	ListByID(ctx context.Context, id int64) (store.List, error)
 	LatestPublishedList(ctx context.Context, datasetID int64) (store.List, error)
 	ListRows(ctx context.Context, f store.ListFilter) ([]store.ListedCustomer, int, error)
-	EachListRow(ctx context.Context, datasetID, listID int64, statuses []int, fn func(store.ListedCustomer) error) error
+	EachListRowWith(ctx context.Context, datasetID, listID int64, statuses []int, attrs []string, fn func(store.ListedCustomer) error) error
 	PublishList(ctx context.Context, id int64, by string, at time.Time) error
 	DeleteDraftList(ctx context.Context, id int64) error
 	ScheduleOf(ctx context.Context, datasetID int64) (store.Schedule, error)

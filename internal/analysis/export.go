@@ -21,7 +21,7 @@ const (
 
 // ListRowReader reads a list's rows (store.Store does).
 type ListRowReader interface {
-	EachListRow(ctx context.Context, datasetID, listID int64, statuses []int, fn func(store.ListedCustomer) error) error
+	EachListRowWith(ctx context.Context, datasetID, listID int64, statuses []int, attrs []string, fn func(store.ListedCustomer) error) error
 }
 
 // ExportList streams a list's customers to w: the ones to contact (CSV or
@@ -63,19 +63,9 @@ func ExportList(ctx context.Context, st ListRowReader, l store.List, format stri
 	default:
 		return problem.New(problem.Invalid, "unknown export format %q (want csv, json or holdout)", format)
 	}
-	vals := make([]string, len(attrs))
-	err := st.EachListRow(ctx, l.DatasetID, l.ID, []int{status}, func(c store.ListedCustomer) error {
-		if len(attrs) > 0 {
-			m, err := c.Attributes()
-			if err != nil {
-				return err
-			}
-			for k, a := range attrs {
-				vals[k] = m[a]
-			}
-		}
+	err := st.EachListRowWith(ctx, l.DatasetID, l.ID, []int{status}, attrs, func(c store.ListedCustomer) error {
 		return write(lists.Row{Key: c.Key, Email: c.Email, Probability: c.Probability, Band: BandOf(c.Band), Reasons: c.Reasons,
-			ListDate: l.AsOf, Attrs: vals})
+			ListDate: l.AsOf, Attrs: c.AttrValues})
 	})
 	if err != nil {
 		return err

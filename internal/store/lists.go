@@ -50,9 +50,11 @@ type ListedCustomer struct {
 	ListRow
 	Key, Email string
 	// AttributesJSON is the customer's attributes as stored (a JSON object,
-	// "" for none); Attributes decodes it, only when asked, since most
-	// readers of a long list never look.
+	// "" for none; ListRows fills it); Attributes decodes it, only when
+	// asked, since most readers of a list never look.
 	AttributesJSON string
+	// AttrValues are the attributes EachListRowWith was asked for.
+	AttrValues []string
 }
 
 // Attributes decodes the customer's attributes (nil for none).
@@ -290,16 +292,35 @@ func (s *Store) ListRows(ctx context.Context, f ListFilter) ([]ListedCustomer, i
 // statuses, in rank order, reading as it goes (memory stays flat however
 // long the list). fn's error stops the walk and is returned.
 func (s *Store) EachListRow(ctx context.Context, datasetID, listID int64, statuses []int, fn func(ListedCustomer) error) error {
+	return s.EachListRowWith(ctx, datasetID, listID, statuses, nil, fn)
+}
+
+// EachListRowWith is EachListRow that also reads the named attributes of
+// each customer into AttrValues, in order ("" where unset); SQLite picks
+// them out of the stored JSON.
+func (s *Store) EachListRowWith(ctx context.Context, datasetID, listID int64, statuses []int, attrs []string, fn func(ListedCustomer) error) error {
 	where, args := listWhere(ListFilter{ListID: listID, Band: -1, Status: statuses})
+	cols := listedBase
+	var colArgs []any
+	for _, a := range attrs {
+		cols += attrColumn
+		colArgs = append(colArgs, attrPath(a))
+	}
 	// Through the driver directly: a long export reads hundreds of
 	// thousands of rows, and database/sql's per-row conversions cost as much
 	// as SQLite's reading.
 	err := s.readRaw(ctx, func(q driver.ConnPrepareContext) error {
-		return rawQuery(ctx, q, `SELECT `+listedColumns+` FROM list_rows r JOIN customers c ON c.dataset_id = ? AND c.id = r.customer_id
-			WHERE `+where+` ORDER BY r.rank`, append([]any{datasetID}, args...), func(row []driver.Value) error {
+		return rawQuery(ctx, q, `SELECT `+cols+` FROM list_rows r JOIN customers c ON c.dataset_id = ? AND c.id = r.customer_id
+			WHERE `+where+` ORDER BY r.rank`, append(append(colArgs, datasetID), args...), func(row []driver.Value) error {
 			c, err := listedFromRaw(row)
 			if err != nil {
 				return err
+			}
+			if len(attrs) > 0 {
+				c.AttrValues = make([]string, len(attrs))
+				for k := range attrs {
+					c.AttrValues[k] = rawString(row[8+k])
+				}
 			}
 			return fn(c)
 		})
@@ -309,6 +330,17 @@ func (s *Store) EachListRow(ctx context.Context, datasetID, listID int64, status
 	}
 	return err
 }
+
+// listedBase are the columns every list read takes; attrColumn is one
+// attribute picked out of the customer's JSON, its path a placeholder.
+const (
+	listedBase = `r.rank, r.customer_id, r.probability, r.band, r.status, r.reasons, c.key, COALESCE(c.email, '')`
+	attrColumn = `, COALESCE(json_extract(c.attributes, ?), '')`
+)
+
+// attrPath is the JSON path of an attribute name (quoted, so any name
+// works; a double quote cannot be part of a name in a path).
+func attrPath(name string) string { return `$."` + strings.ReplaceAll(name, `"`, ``) + `"` }
 
 // listedFromRaw converts a driver row of listedColumns.
 func listedFromRaw(row []driver.Value) (ListedCustomer, error) {
@@ -322,7 +354,7 @@ func listedFromRaw(row []driver.Value) (ListedCustomer, error) {
 		return c, fmt.Errorf("list row %v has unexpected column types", row[:5])
 	}
 	c.Rank, c.Customer, c.Probability, c.Band, c.Status = int(rank), int32(cust), prob, int(band), int(status)
-	c.Reasons, c.Key, c.Email, c.AttributesJSON = rawString(row[5]), rawString(row[6]), rawString(row[7]), rawString(row[8])
+	c.Reasons, c.Key, c.Email = rawString(row[5]), rawString(row[6]), rawString(row[7])
 	return c, nil
 }
 
@@ -366,7 +398,7 @@ func listWhere(f ListFilter) (string, []any) {
 	}
 	if f.AttrName != "" {
 		conds = append(conds, "json_extract(c.attributes, ?) = ?")
-		args = append(args, `$."`+strings.ReplaceAll(f.AttrName, `"`, ``)+`"`, f.AttrValue)
+		args = append(args, attrPath(f.AttrName), f.AttrValue)
 	}
 	return strings.Join(conds, " AND "), args
 }
