@@ -21,7 +21,7 @@ import (
 func TestBrowserLists(t *testing.T) {
 	e, d := trainedEnv(t)
 	ctx := browser.New(t)
-	ctx, cancel := context.WithTimeout(ctx, 90*time.Second)
+	ctx, cancel := context.WithTimeout(ctx, 150*time.Second)
 	defer cancel()
 	p := &page{t: t, ctx: ctx, url: e.srv.URL}
 	p.signIn("test-analyst")

@@ -106,7 +106,7 @@ func TestBrowserImportFlow(t *testing.T) {
 	os.WriteFile(broken, []byte("customer_id,order_date,amount\nC1,2024-01-05,12.50\nC2,2024-02-30,3\nC3,2024-03-01,ten\n"), 0o644)
 
 	ctx := browser.New(t)
-	ctx, cancel := context.WithTimeout(ctx, 90*time.Second)
+	ctx, cancel := context.WithTimeout(ctx, 150*time.Second)
 	defer cancel()
 	p := &page{t: t, ctx: ctx, url: e.srv.URL}
 
@@ -162,7 +162,7 @@ func TestBrowserImportFlow(t *testing.T) {
 func TestBrowserWindow(t *testing.T) {
 	e := newEnv(t, true)
 	ctx := browser.New(t)
-	ctx, cancel := context.WithTimeout(ctx, 90*time.Second)
+	ctx, cancel := context.WithTimeout(ctx, 150*time.Second)
 	defer cancel()
 	p := &page{t: t, ctx: ctx, url: e.srv.URL}
 	p.signIn("test-analyst")
@@ -182,7 +182,7 @@ func TestBrowserWindow(t *testing.T) {
 	// Type a rounded X into the save form: its row appears without a request.
 	p.eval(`(() => { document.querySelector("#save-days").value = ""; return true })()`)
 	p.do(chromedp.SendKeys(chromedp.CSS("#save-days"), "90"))
-	p.waitFor(`!document.querySelector("#live-lookup").hidden`, 5*time.Second)
+	p.waitFor(`!document.querySelector("#live-lookup").hidden`, 20*time.Second)
 	if got := p.text("#live-lookup tbody th"); got != "90" {
 		t.Errorf("live lookup shows X %q, want 90", got)
 	}
@@ -207,7 +207,7 @@ func TestBrowserTrain(t *testing.T) {
 		t.Fatal(err)
 	}
 	ctx := browser.New(t)
-	ctx, cancel := context.WithTimeout(ctx, 90*time.Second)
+	ctx, cancel := context.WithTimeout(ctx, 150*time.Second)
 	defer cancel()
 	p := &page{t: t, ctx: ctx, url: e.srv.URL}
 	p.signIn("test-analyst")

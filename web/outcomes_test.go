@@ -103,7 +103,7 @@ func TestOutcomesBeforeAnyList(t *testing.T) {
 func TestBrowserOverview(t *testing.T) {
 	e, id := pastEnv(t)
 	ctx := browser.New(t)
-	ctx, cancel := context.WithTimeout(ctx, 60*time.Second)
+	ctx, cancel := context.WithTimeout(ctx, 120*time.Second)
 	defer cancel()
 	p := &page{t: t, ctx: ctx, url: e.srv.URL}
 	p.signIn("test-viewer")

@@ -46,7 +46,7 @@ func (e *testEnv) waitJob(loc string) jobs.Job {
 	for _, c := range strings.TrimPrefix(loc, "/jobs/") {
 		id = id*10 + int64(c-'0')
 	}
-	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	ctx, cancel := context.WithTimeout(context.Background(), 120*time.Second)
 	defer cancel()
 	j, err := e.runner.Wait(ctx, id)
 	if err != nil {
