@@ -334,7 +334,7 @@ func Train(ctx context.Context, st *store.Store, cache *Histories, datasetID int
 	}
 	// The latest slice recalibrates the refit models: the test period's dates.
 	latestSlice := slices.Clone(test)
-	test = sampleCustomers(tab, test, opt.TestSample, opt.Seed)
+	test = sampleCustomers(tab.Customer, test, opt.TestSample, opt.Seed)
 	rep.Rows["test_evaluated"] = len(test)
 	stage("snapshots")
 
@@ -772,7 +772,7 @@ func evaluateModel(name string, m *model.Model, scores []float64, testF *frame.F
 // capCheck trains the logistic model on a customer sample of half the
 // training rows and scores it on the test rows.
 func capCheck(tab *snapshots.Table, fr *frame.Frame, train []int, validF, testF *frame.Frame, labels []bool, spec fitSpec, opt TrainOptions) (*CapCheck, error) {
-	half := sampleCustomers(tab, train, len(train)/2, opt.Seed+7)
+	half := sampleCustomers(tab.Customer, train, len(train)/2, opt.Seed+7)
 	m, err := trainModel("logistic", subset(fr, half), validF, spec)
 	if err != nil {
 		return nil, fmt.Errorf("row cap check: %w", err)
@@ -812,16 +812,16 @@ func truthAUC(truth TruthFunc, testF *frame.Frame, keys []string, horizon int, l
 // input order.
 func tieKey(seed uint64, customer int32) uint64 { return snapshots.CustomerHash(seed, customer) }
 
-// sampleCustomers keeps at most max of rows, whole customers at a time, by
-// a keyed hash of the customer.
-func sampleCustomers(tab *snapshots.Table, rows []int, max int, seed uint64) []int {
+// sampleCustomers keeps about max of rows, whole customers at a time, by
+// a keyed hash of the customer (customers[r] is row r's customer).
+func sampleCustomers(customers []int32, rows []int, max int, seed uint64) []int {
 	if len(rows) <= max {
 		return rows
 	}
-	limit := uint64(float64(max) / float64(len(rows)) * float64(^uint64(0)))
+	limit := snapshots.ShareLimit(float64(max) / float64(len(rows)))
 	var out []int
 	for _, r := range rows {
-		if tieKey(seed+1, tab.Customer[r]) < limit {
+		if tieKey(seed+1, customers[r]) < limit {
 			out = append(out, r)
 		}
 	}
@@ -929,13 +929,11 @@ const importanceRows = 50_000
 // how much the model's ROC AUC drops.
 func permutationImportance(m *model.Model, testF *frame.Frame, labels []bool, seed uint64) ([]Coefficient, error) {
 	if n := testF.Rows(); n > importanceRows {
-		limit := uint64(float64(importanceRows) / float64(n) * float64(^uint64(0)))
-		var rows []int
-		for i, c := range testF.Customers() {
-			if tieKey(seed+2, c) < limit {
-				rows = append(rows, i)
-			}
+		all := make([]int, n)
+		for i := range all {
+			all[i] = i
 		}
+		rows := sampleCustomers(testF.Customers(), all, importanceRows, seed+1)
 		testF = subset(testF, rows)
 		sub := make([]bool, len(rows))
 		for k, i := range rows {
@@ -1031,7 +1029,7 @@ func earlierFolds(fr *frame.Frame, tab *snapshots.Table, dates []civil.Date, spe
 				test = append(test, r)
 			}
 		}
-		test = sampleCustomers(tab, test, opt.TestSample, opt.Seed)
+		test = sampleCustomers(tab.Customer, test, opt.TestSample, opt.Seed)
 		trainF, validF, testF := subset(fr, train), subset(fr, valid), subset(fr, test)
 		labels := boolLabels(testF.Labels())
 		fold := FoldReport{TestFrom: from.String(), TestTo: to.String()}

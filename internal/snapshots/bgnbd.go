@@ -42,7 +42,7 @@ func FitBGNBD(h *history.History, through civil.Date, maxCustomers int, seed uin
 		}
 	}
 	if maxCustomers > 0 && len(cs) > maxCustomers {
-		limit := uint64(float64(maxCustomers) / float64(len(cs)) * float64(^uint64(0)))
+		limit := ShareLimit(float64(maxCustomers) / float64(len(cs)))
 		kept := cs[:0]
 		for i, c := range ids {
 			if CustomerHash(seed, c) < limit {

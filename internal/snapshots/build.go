@@ -1,6 +1,7 @@
 package snapshots
 
 import (
+	"math"
 	"slices"
 
 	"ebb/internal/bgnbd"
@@ -77,7 +78,7 @@ func Build(h *history.History, opt Options) (*Table, error) {
 	if opt.MaxRows > 0 && total > opt.MaxRows {
 		share := float64(opt.MaxRows) / float64(total)
 		tab.SampledShare = share
-		limit := uint64(share * float64(^uint64(0)))
+		limit := ShareLimit(share)
 		keep = func(c int) bool { return CustomerHash(opt.Seed, int32(c)) < limit }
 	}
 	capRows := min(total, max(opt.MaxRows, 0))
@@ -118,6 +119,21 @@ func Build(h *history.History, opt Options) (*Table, error) {
 		}
 	}
 	return tab, nil
+}
+
+// ShareLimit is the CustomerHash value below which about share (0–1) of
+// the customers fall: a sample by keyed hash keeps customer c when
+// CustomerHash(seed, c) < ShareLimit(share), so each customer is all in or
+// all out, whatever the input order.
+func ShareLimit(share float64) uint64 {
+	switch v := share * 0x1p64; {
+	case !(v > 0):
+		return 0
+	case v >= 0x1p64:
+		return math.MaxUint64
+	default:
+		return uint64(v)
+	}
 }
 
 // CustomerHash is SplitMix64 (Steele, Lea & Flood 2014) of a seed and a
