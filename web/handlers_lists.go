@@ -120,11 +120,7 @@ func (s *Server) datasetParam(r *http.Request) (store.Dataset, error) {
 func parseListForm(r *http.Request) (analysis.ScoreRequest, error) {
 	var req analysis.ScoreRequest
 	num := func(name, what string, lo, hi float64) (float64, error) {
-		x, err := strconv.ParseFloat(strings.TrimSpace(r.PostFormValue(name)), 64)
-		if err != nil || !(x >= lo && x <= hi) { // NaN fails too
-			return 0, problem.New(problem.Invalid, "%s must be a number from %g to %g", what, lo, hi)
-		}
-		return x, nil
+		return numberIn(r.PostFormValue(name), what, lo, hi)
 	}
 	var err error
 	switch r.PostFormValue("mode") {

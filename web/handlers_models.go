@@ -345,9 +345,9 @@ func parseTry(r *http.Request, defaultModel string) (tryForm, error) {
 		f.k, f.hasK = k, true
 	}
 	if f.tText != "" {
-		t, err := strconv.ParseFloat(strings.TrimSpace(f.tText), 64)
-		if err != nil || !(t >= 0 && t <= 1) { // NaN fails too
-			return f, problem.New(problem.Invalid, "the probability threshold must be between 0 and 1")
+		t, err := numberIn(f.tText, "the probability threshold", 0, 1)
+		if err != nil {
+			return f, err
 		}
 		f.threshold, f.hasThreshold = t, true
 	}

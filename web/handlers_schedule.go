@@ -107,17 +107,17 @@ func parseScheduleForm(r *http.Request) (store.Schedule, error) {
 		}
 		rule.Rule.Size = k
 	case "threshold":
-		p, err := strconv.ParseFloat(strings.TrimSpace(r.PostFormValue("threshold")), 64)
-		if err != nil || !(p >= 0 && p <= 1) {
-			return sc, problem.New(problem.Invalid, "the probability threshold must be a number from 0 to 1")
+		p, err := numberIn(r.PostFormValue("threshold"), "the probability threshold", 0, 1)
+		if err != nil {
+			return sc, err
 		}
 		rule.Rule.Threshold, rule.Rule.UseThreshold = p, true
 	default:
 		return sc, problem.New(problem.Invalid, "choose how many customers the list takes")
 	}
-	share, err := strconv.ParseFloat(strings.TrimSpace(r.PostFormValue("holdout")), 64)
-	if err != nil || !(share >= 0 && share <= 0.5) {
-		return sc, problem.New(problem.Invalid, "the holdout share must be a number from 0 to 0.5")
+	share, err := numberIn(r.PostFormValue("holdout"), "the holdout share", 0, 0.5)
+	if err != nil {
+		return sc, err
 	}
 	rule.Holdout = share
 	body, err := json.Marshal(rule)
