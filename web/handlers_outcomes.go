@@ -124,8 +124,8 @@ func (s *Server) handleOverview(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	if analyst {
-		if ls, err := s.store.Lists(ctx, d.ID, true); err == nil && len(ls) > 0 && !ls[0].Published {
-			v.Attention = append(v.Attention, fmt.Sprintf("A draft list of %s waits for review and publishing.", ls[0].AsOf))
+		if l, err := s.store.LatestList(ctx, d.ID); err == nil && !l.Published {
+			v.Attention = append(v.Attention, fmt.Sprintf("A draft list of %s waits for review and publishing.", l.AsOf))
 		}
 	}
 	v.Cards = append(v.Cards, lc)

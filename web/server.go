@@ -51,6 +51,7 @@ type Store interface {
 	Lists(ctx context.Context, datasetID int64, withDrafts bool) ([]store.List, error)
 	ListByID(ctx context.Context, id int64) (store.List, error)
 	LatestPublishedList(ctx context.Context, datasetID int64) (store.List, error)
+	LatestList(ctx context.Context, datasetID int64) (store.List, error)
 	ListRows(ctx context.Context, f store.ListFilter) ([]store.ListedCustomer, int, error)
 	EachListRowWith(ctx context.Context, datasetID, listID int64, statuses []int, attrs []string, fn func(store.ListedCustomer) error) error
 	PublishList(ctx context.Context, id int64, by string, at time.Time) error

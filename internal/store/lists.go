@@ -369,7 +369,8 @@ func rawString(v driver.Value) string {
 	return ""
 }
 
-const listedColumns = `r.rank, r.customer_id, r.probability, r.band, r.status, r.reasons, c.key, COALESCE(c.email, ''), COALESCE(c.attributes, '')`
+// listedColumns are listedBase and the customer's attributes as stored.
+const listedColumns = listedBase + `, COALESCE(c.attributes, '')`
 
 func scanListed(sc interface{ Scan(...any) error }) (ListedCustomer, error) {
 	var c ListedCustomer
