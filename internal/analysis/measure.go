@@ -1,6 +1,7 @@
 package analysis
 
 import (
+	"cmp"
 	"context"
 	"encoding/json"
 	"fmt"
@@ -207,15 +208,7 @@ func weekStart(d civil.Date) civil.Date { return d - civil.Date((int(d.Weekday()
 
 func topFeatures(fs []FeaturePSI, n int) []FeaturePSI {
 	s := slices.Clone(fs)
-	slices.SortStableFunc(s, func(a, b FeaturePSI) int {
-		switch {
-		case a.PSI > b.PSI:
-			return -1
-		case a.PSI < b.PSI:
-			return 1
-		}
-		return 0
-	})
+	slices.SortStableFunc(s, func(a, b FeaturePSI) int { return cmp.Compare(b.PSI, a.PSI) })
 	return s[:min(n, len(s))]
 }
 

@@ -2,6 +2,7 @@ package analysis
 
 import (
 	"bytes"
+	"cmp"
 	"context"
 	"encoding/csv"
 	"encoding/json"
@@ -985,15 +986,7 @@ func permutationImportance(m *model.Model, testF *frame.Frame, labels []bool, se
 		}
 		out = append(out, Coefficient{Term: name, Value: auc - a})
 	}
-	slices.SortStableFunc(out, func(a, b Coefficient) int {
-		switch {
-		case a.Value > b.Value:
-			return -1
-		case a.Value < b.Value:
-			return 1
-		}
-		return 0
-	})
+	slices.SortStableFunc(out, func(a, b Coefficient) int { return cmp.Compare(b.Value, a.Value) })
 	return out, nil
 }
 

@@ -143,16 +143,14 @@ func (s *Store) InsertList(ctx context.Context, l List, rows []ListRow) (int64, 
 // cannot be published again or changed.
 func (s *Store) PublishList(ctx context.Context, id int64, by string, at time.Time) error {
 	err := s.inTx(ctx, func(tx *sql.Tx) error {
-		var state string
-		if err := tx.QueryRowContext(ctx, `SELECT state FROM lists WHERE id = ?`, id).Scan(&state); errors.Is(err, sql.ErrNoRows) {
-			return problem.New(problem.NotFound, "there is no list %d", id)
-		} else if err != nil {
+		state, err := listState(ctx, tx, id)
+		if err != nil {
 			return err
 		}
 		if state == "published" {
 			return problem.New(problem.Conflict, "list %d is already published; a published list never changes", id)
 		}
-		_, err := tx.ExecContext(ctx, `UPDATE lists SET state = 'published', published_by = ?, published_at = ? WHERE id = ? AND state = 'draft'`,
+		_, err = tx.ExecContext(ctx, `UPDATE lists SET state = 'published', published_by = ?, published_at = ? WHERE id = ? AND state = 'draft'`,
 			by, timeText(at), id)
 		return err
 	})
@@ -162,19 +160,27 @@ func (s *Store) PublishList(ctx context.Context, id int64, by string, at time.Ti
 	return err
 }
 
+// listState reads a list's state inside a write transaction.
+func listState(ctx context.Context, tx *sql.Tx, id int64) (string, error) {
+	var state string
+	err := tx.QueryRowContext(ctx, `SELECT state FROM lists WHERE id = ?`, id).Scan(&state)
+	if errors.Is(err, sql.ErrNoRows) {
+		return "", problem.New(problem.NotFound, "there is no list %d", id)
+	}
+	return state, err
+}
+
 // DeleteDraftList discards a draft; published lists are kept for ever.
 func (s *Store) DeleteDraftList(ctx context.Context, id int64) error {
 	err := s.inTx(ctx, func(tx *sql.Tx) error {
-		var state string
-		if err := tx.QueryRowContext(ctx, `SELECT state FROM lists WHERE id = ?`, id).Scan(&state); errors.Is(err, sql.ErrNoRows) {
-			return problem.New(problem.NotFound, "there is no list %d", id)
-		} else if err != nil {
+		state, err := listState(ctx, tx, id)
+		if err != nil {
 			return err
 		}
 		if state != "draft" {
 			return problem.New(problem.Conflict, "list %d is published; published lists are kept", id)
 		}
-		_, err := tx.ExecContext(ctx, `DELETE FROM lists WHERE id = ? AND state = 'draft'`, id)
+		_, err = tx.ExecContext(ctx, `DELETE FROM lists WHERE id = ? AND state = 'draft'`, id)
 		return err
 	})
 	if err != nil && problem.As(err) == nil {

@@ -87,7 +87,12 @@ func scanModel(sc interface{ Scan(...any) error }) (StoredModel, error) {
 
 // Models lists a dataset's models, newest first.
 func (s *Store) Models(ctx context.Context, datasetID int64) ([]StoredModel, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT `+modelColumns+` FROM models WHERE dataset_id = ? ORDER BY id DESC`, datasetID)
+	return s.models(ctx, `SELECT `+modelColumns+` FROM models WHERE dataset_id = ? ORDER BY id DESC`, datasetID)
+}
+
+// models runs a query of modelColumns' shape.
+func (s *Store) models(ctx context.Context, query string, datasetID int64) ([]StoredModel, error) {
+	rows, err := s.r.QueryContext(ctx, query, datasetID)
 	if err != nil {
 		return nil, fmt.Errorf("list models of dataset %d: %w", datasetID, err)
 	}
@@ -97,6 +102,9 @@ func (s *Store) Models(ctx context.Context, datasetID int64) ([]StoredModel, err
 		m, err := scanModel(rows)
 		if err != nil {
 			return nil, fmt.Errorf("list models of dataset %d: %w", datasetID, err)
+		}
+		if len(m.Model) == 0 {
+			m.Model = nil
 		}
 		out = append(out, m)
 	}
@@ -227,19 +235,5 @@ func (s *Store) LatestTrainingRunID(ctx context.Context, datasetID int64) (int64
 // ModelsBrief lists a dataset's models, newest first, without the models
 // themselves (only their summaries), for pages that list them.
 func (s *Store) ModelsBrief(ctx context.Context, datasetID int64) ([]StoredModel, error) {
-	rows, err := s.r.QueryContext(ctx, `SELECT id, run_id, dataset_id, name, kind, '', summary, in_use, created_at FROM models WHERE dataset_id = ? ORDER BY id DESC`, datasetID)
-	if err != nil {
-		return nil, fmt.Errorf("list models of dataset %d: %w", datasetID, err)
-	}
-	defer rows.Close()
-	var out []StoredModel
-	for rows.Next() {
-		m, err := scanModel(rows)
-		if err != nil {
-			return nil, fmt.Errorf("list models of dataset %d: %w", datasetID, err)
-		}
-		m.Model = nil
-		out = append(out, m)
-	}
-	return out, rows.Err()
+	return s.models(ctx, `SELECT id, run_id, dataset_id, name, kind, '', summary, in_use, created_at FROM models WHERE dataset_id = ? ORDER BY id DESC`, datasetID)
 }
